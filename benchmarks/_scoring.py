@@ -1,0 +1,79 @@
+"""Test-split scores computed by the benchmark itself, from predictions only.
+
+No method reports its own score: every method hands back predicted labels (or values) and,
+for classifiers, one probability column per class; the scores below come from
+scikit-learn's metric functions on the held-out test rows. That keeps methods comparable
+even when they use different internals.
+
+Primary metric per task (the one ranked): ROC AUC for binary (higher is better), log loss for
+multiclass (lower is better), RMSE for regression (lower is better). Accuracy is reported
+beside the two classification metrics.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+from sklearn.metrics import accuracy_score, log_loss, mean_squared_error, roc_auc_score
+
+PRIMARY_METRIC = {"binary": "roc_auc", "multiclass": "log_loss", "regression": "rmse"}
+HIGHER_IS_BETTER = {"roc_auc": True, "log_loss": False, "rmse": False, "accuracy": True}
+
+
+@dataclass(frozen=True)
+class Predictions:
+    """What a method predicts for the test rows.
+
+    Parameters
+    ----------
+    values
+        Predicted class labels (classification) or predicted values (regression), one per row.
+    proba
+        Classification only: one column per class, named by the class label as text, each
+        row summing to one. ``None`` for regression.
+    """
+
+    values: np.ndarray
+    proba: pd.DataFrame | None = None
+
+
+def score_predictions(task: str, y_true: pd.Series, predictions: Predictions) -> dict[str, float]:
+    """Score predictions against the true test targets.
+
+    Returns
+    -------
+    dict
+        The primary metric of ``task`` under its name (see ``PRIMARY_METRIC``), plus
+        ``accuracy`` for classification.
+    """
+    if task == "regression":
+        truth = np.asarray(y_true, dtype=float)
+        rmse = float(np.sqrt(mean_squared_error(truth, np.asarray(predictions.values, float))))
+        return {"rmse": rmse}
+    if predictions.proba is None:
+        raise ValueError("a classification method must return class probabilities")
+    truth = np.asarray(y_true).astype(str)
+    proba = predictions.proba
+    classes = sorted(str(c) for c in proba.columns)
+    proba = proba.rename(columns=str)[classes].to_numpy(dtype=float)
+    missing = sorted(set(truth) - set(classes))
+    if missing:
+        raise ValueError(f"no probability column for test class(es) {missing}")
+    result = {"accuracy": float(accuracy_score(truth, np.asarray(predictions.values).astype(str)))}
+    if task == "binary":
+        # AUC of the last class in sorted order; with its own probability column the AUC does
+        # not depend on which of the two classes is called positive.
+        result["roc_auc"] = float(roc_auc_score(truth == classes[-1], proba[:, -1]))
+    else:
+        result["log_loss"] = float(log_loss(truth, proba, labels=classes))
+    return result
+
+
+def orient(metric: str, value: float) -> float:
+    """Return ``value`` turned so that higher is better (losses are negated)."""
+    return value if HIGHER_IS_BETTER[metric] else -value
+
+
+__all__ = ["HIGHER_IS_BETTER", "PRIMARY_METRIC", "Predictions", "orient", "score_predictions"]

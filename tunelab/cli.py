@@ -1,0 +1,272 @@
+"""The shell interface: parse, call one library function per verb, render, map errors to exit codes.
+
+This is the only module that imports typer and rich.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+import threading
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Optional
+
+import typer
+
+from tunelab.errors import TunelabError
+
+app = typer.Typer(
+    name="tunelab",
+    help="Time-boxed, resumable hyperparameter search for tabular data.\n\n"
+         "Start with `tunelab run data.csv --target y --budget 10m`; see a study with `tunelab status`.",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+)
+
+EXIT_BAD_INPUT = 2
+
+
+@dataclass
+class _Flags:
+    debug: bool = False
+
+
+# ---- shared options, defined once ----------------------------------------------------------------
+StoreOpt = typer.Option(None, "--store", envvar="TUNELAB_STORE", metavar="PATH|URL",
+                        help="Study store: a SQLite file path or a database URL. [default: ./tunelab.db]")
+JsonOpt = typer.Option(False, "--json", help="Print the result as JSON on stdout.")
+QuietOpt = typer.Option(False, "-q", "--quiet", help="No progress output; results only.")
+SeedOpt = typer.Option(0, "--seed", help="Seed for folds, models and the sampler.")
+
+
+@app.callback()
+def _root(ctx: typer.Context,
+          debug: bool = typer.Option(False, "--debug", help="Show full tracebacks on errors.")) -> None:
+    ctx.obj.debug = debug
+
+
+def _search_output(result: Any, json_out: bool) -> int:
+    from tunelab import _render as r
+
+    s = result.summary
+    if json_out:
+        r.emit_json({"study": result.study, "store": result.store, "metric": result.metric,
+                     "stop_reason": s.stop_reason, "elapsed_seconds": round(s.elapsed, 2), "trials": s.counts,
+                     "best_value": s.best_value, "best_trial": s.best_trial, "best_config": result.best_config,
+                     "recovered_trials": s.recovered, "requeued_trials": s.requeued})
+    else:
+        c = s.counts
+        r.out.print(f"study {result.study}: {s.stop_reason} after {r.format_duration(s.elapsed)}; "
+                    f"{sum(c.values())} trials ({c.get('complete', 0)} complete, {c.get('pruned', 0)} pruned, "
+                    f"{c.get('failed', 0)} failed, {c.get('interrupted', 0)} interrupted)")
+        if s.best_value is not None:
+            r.out.print(f"best {result.metric} {s.best_value:.4f} (trial {s.best_trial})")
+            r.out.print(r.config_table(result.best_config))
+            r.out.print(f"next: tunelab export {result.study} --out {result.study}.model.zip"
+                        + ("" if s.exit_code == 0 else f"   or continue: tunelab resume {result.study}"))
+        else:
+            r.out.print(f"no finished trial yet; continue with: tunelab resume {result.study} --extend 5m")
+    return s.exit_code
+
+
+def _progress_hooks(metric_holder: dict[str, Any], quiet: bool) -> tuple[Any, Any, Any]:
+    from tunelab import _render as r
+
+    state: dict[str, Any] = {"bar": None, "stop": threading.Event()}
+
+    def announce(start: Any) -> None:
+        if quiet:
+            return
+        verb = "resuming" if start.resumed else "study"
+        budget = start.budget
+        box = "-" if budget.wall_seconds is None else r.format_duration(budget.wall_seconds)
+        r.err.print(f"{verb} {start.study} · store {start.store} · {start.rows} rows × {start.columns} columns · "
+                    f"{start.task}, {start.metric} ({start.direction}) · budget {box}"
+                    + (f", {r.format_duration(start.spent_wall)} already spent" if start.spent_wall else ""))
+        for note in start.notes:
+            r.err.print(f"  note: {note}")
+        bar = r.LiveProgress(start.metric, enabled=True)
+        left = None if budget.wall_seconds is None else max(0.0, budget.wall_seconds - start.spent_wall)
+        bar.start(left, budget.trials)
+        state["bar"] = bar
+        state["t0"] = __import__("time").monotonic()
+
+        def ticker() -> None:
+            while not state["stop"].wait(0.5):
+                bar.tick(__import__("time").monotonic() - state["t0"])
+
+        threading.Thread(target=ticker, daemon=True).start()
+
+    def progress(p: Any) -> None:
+        if state["bar"] is not None:
+            state["bar"].update(p)
+
+    def close() -> None:
+        state["stop"].set()
+        if state["bar"] is not None:
+            state["bar"].stop()
+
+    return announce, progress, close
+
+
+@app.command()
+def run(
+    data: Path = typer.Argument(..., help="CSV (any common delimiter, UTF-8) or Parquet file."),
+    target: str = typer.Option(..., "--target", "-t", help="Column to predict."),
+    budget: Optional[str] = typer.Option(None, "--budget", "-b",
+                                         help="Total wall-clock time, e.g. 90s, 10m, 2h (summed over every launch). "
+                                              "[default: 10m unless --trials is given]"),
+    cpu_budget: Optional[str] = typer.Option(None, "--cpu-budget", help="Cap on CPU time over all processes, e.g. 20m."),
+    trials: Optional[int] = typer.Option(None, "--trials", help="Cap on the number of finished trials."),
+    metric: Optional[str] = typer.Option(None, "--metric", "-m",
+                                         help="roc_auc, accuracy, log_loss (classification); rmse, mae, r2 "
+                                              "(regression). [default: roc_auc binary, log_loss multiclass, rmse]"),
+    task: Optional[str] = typer.Option(None, "--task", help="binary, multiclass or regression. [default: inferred]"),
+    study: Optional[str] = typer.Option(None, "--study", "-s", help="Study name. [default: the data file's name]"),
+    space: Optional[Path] = typer.Option(None, "--space", help="Search space JSON to use instead of the built one."),
+    pruning: str = typer.Option("auto", "--pruning", help="auto, off, median, halving or hyperband."),
+    jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
+    seed: int = SeedOpt,
+    store: Optional[str] = StoreOpt,
+    json_out: bool = JsonOpt,
+    quiet: bool = QuietOpt,
+) -> None:
+    """Profile a data file and search it for the best pipeline within a budget.
+
+    Example: tunelab run sales.csv --target churned --budget 10m
+    """
+    from tunelab.engine import Budget, parse_duration
+    from tunelab.ops import RunRequest, run_study
+
+    wall = parse_duration(budget) if budget else (None if trials else 600.0)
+    box = Budget(wall, parse_duration(cpu_budget) if cpu_budget else None, trials)
+    request = RunRequest(data=data, target=target, budget=box, store=store, study=study, task=task, metric=metric,
+                         seed=seed, space_file=space, pruning=pruning, jobs=jobs)
+    announce, progress, close = _progress_hooks({}, quiet or json_out)
+    try:
+        result = run_study(request, announce=announce, on_progress=progress)
+    finally:
+        close()
+    raise typer.Exit(_search_output(result, json_out))
+
+
+@app.command()
+def resume(
+    study: str = typer.Argument(..., help="Name of the study to continue."),
+    extend: Optional[str] = typer.Option(None, "--extend", help="Add this much time to the study's budget, e.g. 10m."),
+    more_trials: int = typer.Option(0, "--more-trials", help="Add this many trials to the study's trial cap."),
+    data: Optional[Path] = typer.Option(None, "--data", help="The data file's new place, if it moved."),
+    accept_changed_data: bool = typer.Option(False, "--accept-changed-data",
+                                             help="Continue even though the data file's bytes changed."),
+    jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
+    store: Optional[str] = StoreOpt,
+    json_out: bool = JsonOpt,
+    quiet: bool = QuietOpt,
+) -> None:
+    """Continue a study after a crash, Ctrl-C or reboot, with the budget that is left.
+
+    Trials that were running when the process died are recorded as interrupted and run again first.
+    """
+    from tunelab.engine import parse_duration
+    from tunelab.ops import resume_study
+
+    seconds = parse_duration(extend) if extend else 0.0
+    announce, progress, close = _progress_hooks({}, quiet or json_out)
+    try:
+        result = resume_study(study, store=store, extend_seconds=seconds, extend_trials=more_trials, data=data,
+                              accept_changed_data=accept_changed_data, announce=announce, on_progress=progress,
+                              jobs=jobs)
+    finally:
+        close()
+    raise typer.Exit(_search_output(result, json_out))
+
+
+@app.command()
+def status(
+    study: Optional[str] = typer.Argument(None, help="A study to show in detail; omit to list every study."),
+    top: int = typer.Option(5, "--top", help="How many of the best trials to show."),
+    store: Optional[str] = StoreOpt,
+    json_out: bool = JsonOpt,
+) -> None:
+    """List the studies in a store, or show one: best config, score ± fold spread, top trials, budget."""
+    from tunelab import _render as r
+    from tunelab.ops import list_studies, study_detail
+
+    if study is None:
+        lines = list_studies(store)
+        if json_out:
+            r.emit_json([line.to_dict() for line in lines])
+            return
+        r.out.print(r.study_list_table(lines))
+        return
+    detail = study_detail(study, store, top=top)
+    if json_out:
+        r.emit_json(detail.to_dict())
+        return
+    r.print_detail(detail)
+
+
+@app.command()
+def export(
+    study: str = typer.Argument(..., help="Study whose best pipeline to ship."),
+    out: Path = typer.Option(..., "--out", "-o", help="Model file to write, e.g. model.zip."),
+    trial: Optional[int] = typer.Option(None, "--trial", help="Export this trial instead of the best one."),
+    store: Optional[str] = StoreOpt,
+    json_out: bool = JsonOpt,
+) -> None:
+    """Refit the best pipeline on all rows and write a model file (its sha256 goes into the store).
+
+    Model files hold pickles: load only files you trust.
+    """
+    from tunelab import _render as r
+    from tunelab.ops import export_model
+
+    result = export_model(study, out, store=store, trial=trial)
+    if json_out:
+        r.emit_json(result.to_dict())
+        return
+    r.out.print(f"wrote {result.path}: trial {result.trial} ({result.family}), cross-validated {result.metric} "
+                f"{result.score:.4f}; sha256 {result.sha256[:16]}…")
+
+
+@app.command()
+def predict(
+    model: Path = typer.Argument(..., help="Model file written by `tunelab export`."),
+    data: Path = typer.Argument(..., help="Rows to predict (CSV or Parquet) with the training columns."),
+    out: Path = typer.Option(..., "--out", "-o", help="CSV to write: `prediction`, plus `proba_<class>` columns."),
+    json_out: bool = JsonOpt,
+) -> None:
+    """Check a model file's hash and the input columns, then write predictions."""
+    from tunelab import _render as r
+    from tunelab.ops import predict_file
+
+    result = predict_file(model, data, out)
+    if json_out:
+        r.emit_json(result.to_dict())
+        return
+    r.out.print(f"wrote {result.rows} predictions to {result.path} ({', '.join(result.columns)})")
+    if result.extra_columns:
+        r.err.print(f"note: ignored columns the model does not use: {', '.join(result.extra_columns[:10])}")
+
+
+def main(argv: list[str] | None = None) -> None:
+    """Entry point: run the app; map TunelabError to one line on stderr and exit code 2."""
+    flags = _Flags(debug="--debug" in (argv if argv is not None else sys.argv[1:]))
+    try:
+        app(args=argv, obj=flags, prog_name="tunelab", standalone_mode=True)
+    except TunelabError as exc:
+        if flags.debug:
+            raise
+        hint = f" — {exc.hint}" if exc.hint else ""
+        sys.stderr.write(f"tunelab: error: {exc.message}{hint}\n")
+        sys.exit(EXIT_BAD_INPUT)
+    except KeyboardInterrupt:
+        sys.stderr.write("tunelab: stopped\n")
+        sys.exit(130)
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

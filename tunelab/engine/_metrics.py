@@ -1,0 +1,74 @@
+"""Metrics: names, directions, and scoring from predictions."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Literal, Sequence
+
+import numpy as np
+from sklearn import metrics as skm
+
+from tunelab.errors import InputError
+
+Direction = Literal["maximize", "minimize"]
+
+
+@dataclass(frozen=True)
+class Metric:
+    """A metric's name, optimisation direction, whether it needs probabilities, and its tasks."""
+
+    name: str
+    direction: Direction
+    needs_proba: bool
+    tasks: tuple[str, ...]
+
+
+METRICS: dict[str, Metric] = {
+    "roc_auc": Metric("roc_auc", "maximize", True, ("binary", "multiclass")),
+    "accuracy": Metric("accuracy", "maximize", False, ("binary", "multiclass")),
+    "log_loss": Metric("log_loss", "minimize", True, ("binary", "multiclass")),
+    "rmse": Metric("rmse", "minimize", False, ("regression",)),
+    "mae": Metric("mae", "minimize", False, ("regression",)),
+    "r2": Metric("r2", "maximize", False, ("regression",)),
+}
+
+DEFAULT_METRIC = {"binary": "roc_auc", "multiclass": "log_loss", "regression": "rmse"}
+
+
+def resolve_metric(name: str | None, task: str) -> Metric:
+    """The metric for a task, defaulting by task; refuses a metric that does not fit the task."""
+    chosen = name or DEFAULT_METRIC[task]
+    if chosen not in METRICS:
+        raise InputError(f"unknown metric '{chosen}'", f"use one of: {', '.join(METRICS)}")
+    metric = METRICS[chosen]
+    if task not in metric.tasks:
+        fits = [m for m, spec in METRICS.items() if task in spec.tasks]
+        raise InputError(f"metric '{chosen}' does not fit a {task} task", f"use one of: {', '.join(fits)}")
+    return metric
+
+
+def score(metric: Metric, y_true: np.ndarray, model: Any, X: Any, classes: Sequence[Any] = ()) -> float:
+    """Score a fitted model on held-out rows."""
+    if metric.needs_proba:
+        proba = model.predict_proba(X)
+        labels = list(model.classes_)
+        if metric.name == "log_loss":
+            return float(skm.log_loss(y_true, proba, labels=labels))
+        if len(labels) == 2:
+            return float(skm.roc_auc_score(y_true, proba[:, 1]))
+        present = np.isin(labels, np.unique(y_true))
+        proba = proba[:, present] / np.clip(proba[:, present].sum(axis=1, keepdims=True), 1e-12, None)
+        return float(skm.roc_auc_score(y_true, proba, multi_class="ovr", labels=np.asarray(labels)[present]))
+    pred = model.predict(X)
+    if metric.name == "accuracy":
+        return float(skm.accuracy_score(y_true, pred))
+    if metric.name == "rmse":
+        return float(np.sqrt(skm.mean_squared_error(y_true, pred)))
+    if metric.name == "mae":
+        return float(skm.mean_absolute_error(y_true, pred))
+    return float(skm.r2_score(y_true, pred))
+
+
+def better(metric: Metric, a: float, b: float) -> bool:
+    """Whether score ``a`` beats ``b``."""
+    return a > b if metric.direction == "maximize" else a < b

@@ -1,0 +1,287 @@
+"""The search loop: ask (TPE) → evaluate (runner) → tell, inside the study's budget.
+
+One launch of this loop is one row in the store's launch table; a heartbeat keeps that row's
+wall and CPU seconds current, so a crash loses at most one heartbeat interval of accounting.
+"""
+
+from __future__ import annotations
+
+import os
+import statistics
+import threading
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from optuna.trial import TrialState
+
+from tunelab.engine._budget import Budget, Spent, remaining
+from tunelab.engine._clock import Clock
+from tunelab.engine._recovery import (
+    INTERRUPTED,
+    LAUNCH_ATTR,
+    PHASE_ATTR,
+    STATE_ATTR,
+    recover,
+    trial_state,
+)
+from tunelab.engine._runner import Limits, Outcome
+from tunelab.space import SpaceSpec
+from tunelab.store import Store, StudyRecord
+
+
+class StopRequested(BaseException):
+    """Raised in the main thread by a signal handler (SIGTERM, SIGHUP) to stop the search cleanly."""
+
+    def __init__(self, signal_name: str, exit_code: int) -> None:
+        super().__init__(signal_name)
+        self.signal_name = signal_name
+        self.exit_code = exit_code
+
+
+@dataclass
+class Progress:
+    """A snapshot for progress displays, sent after every trial."""
+
+    started: float
+    box_seconds: float | None
+    trials: int
+    counts: dict[str, int]
+    best: float | None
+    last_trial: int | None = None
+    last_state: str = ""
+
+
+@dataclass
+class SearchSummary:
+    """How a launch ended."""
+
+    launch_id: int | None
+    stop_reason: str
+    elapsed: float
+    counts: dict[str, int] = field(default_factory=dict)
+    best_value: float | None = None
+    best_trial: int | None = None
+    signal_name: str | None = None
+    exit_code: int = 0
+    recovered: list[int] = field(default_factory=list)
+    requeued: list[int] = field(default_factory=list)
+
+
+@dataclass
+class SearchSettings:
+    """How a launch behaves: heartbeat interval, staleness, phase, and the launch kind."""
+
+    heartbeat_interval: float | None = 2.0
+    stale_after: float = 30.0
+    phase: int = 1
+    kind: str = "run"
+
+
+class _Heartbeat:
+    """Writes the launch's spend every interval from a thread (or on demand with no thread)."""
+
+    def __init__(self, store: Store, launch_id: int, clock: Clock, started: float,
+                 interval: float | None, runner: Any) -> None:
+        self.store, self.launch_id, self.clock, self.started = store, launch_id, clock, started
+        self.interval, self.runner = interval, runner
+        self.trials_done = 0
+        self.cpu0 = _cpu_total()
+        self._stop = threading.Event()
+        self._lock = threading.Lock()
+        self._thread: threading.Thread | None = None
+        if interval:
+            self._thread = threading.Thread(target=self._loop, name="tunelab-heartbeat", daemon=True)
+            self._thread.start()
+
+    def cpu_seconds(self) -> float:
+        live = getattr(self.runner, "live_cpu", lambda: 0.0)()
+        return _cpu_total() - self.cpu0 + live
+
+    def beat(self) -> None:
+        with self._lock:
+            now = self.clock.now()
+            self.store.beat(self.launch_id, now=now, wall_seconds=max(0.0, now - self.started),
+                            cpu_seconds=self.cpu_seconds(), trials_done=self.trials_done)
+
+    def _loop(self) -> None:
+        while not self._stop.wait(self.interval):
+            try:
+                self.beat()
+            except Exception:  # a missed beat is retried at the next interval
+                continue
+
+    def stop(self) -> None:
+        self._stop.set()
+        if self._thread is not None:
+            self._thread.join(timeout=10)
+        self.beat()
+
+
+def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runner: Any, budget: Budget,
+           *, clock: Clock, settings: SearchSettings | None = None,
+           on_progress: Callable[[Progress], None] | None = None) -> SearchSummary:
+    """Run trials until the budget, the trial cap, or a stop request ends the launch."""
+    settings = settings or SearchSettings()
+    started = clock.now()
+    fixes = recover(store, record, study, now=started, stale_after=settings.stale_after, phase=settings.phase)
+    wall_spent, cpu_spent = store.spent(record.id)
+    done = _finished_count(study)
+    left_wall, left_cpu, left_trials = remaining(budget, Spent(wall_spent, cpu_spent, done))
+    summary = SearchSummary(None, "", 0.0, recovered=fixes.interrupted, requeued=fixes.requeued)
+    if left_wall == 0 or left_cpu == 0 or left_trials == 0:
+        summary.stop_reason = "budget already spent"
+        _fill_best(summary, study)
+        return summary
+    launch_id = store.start_launch(record.id, kind=settings.kind, now=started)
+    summary.launch_id = launch_id
+    deadline = None if left_wall is None else started + left_wall
+    heartbeat = _Heartbeat(store, launch_id, clock, started, settings.heartbeat_interval, runner)
+    durations: dict[str, list[float]] = _past_durations(study)
+    counts = {"complete": 0, "pruned": 0, "failed": 0, "interrupted": 0}
+    state = "finished"
+    trial = None
+    try:
+        while True:
+            reason = _stop_reason(clock.now(), deadline, left_cpu, heartbeat, left_trials, sum(
+                counts[k] for k in ("complete", "pruned", "failed")), durations)
+            if reason:
+                summary.stop_reason = reason
+                break
+            trial = study.ask()
+            study._storage.set_trial_user_attr(trial._trial_id, LAUNCH_ATTR, launch_id)
+            study._storage.set_trial_user_attr(trial._trial_id, PHASE_ATTR, settings.phase)
+            config = space.sample(trial)
+            t0 = clock.now()
+            cpu_left = None if left_cpu is None else max(0.0, left_cpu - heartbeat.cpu_seconds())
+            outcome = runner.run(config, _pruning_hook(trial), Limits(deadline, cpu_left), clock)
+            kind = _record(study, trial, outcome)
+            trial = None
+            counts[kind] += 1
+            if kind == "complete":
+                durations.setdefault(str(config.get("family", "")), []).append(clock.now() - t0)
+            heartbeat.trials_done += 1
+            if settings.heartbeat_interval is None:
+                heartbeat.beat()
+            if on_progress is not None:
+                on_progress(_progress(study, started, left_wall, counts, kind, outcome))
+            if kind == INTERRUPTED:
+                summary.stop_reason = outcome.extras.get("stopped_by", "time budget") + " spent during a trial"
+                break
+    except (KeyboardInterrupt, StopRequested) as exc:
+        if trial is not None:
+            _mark_interrupted(study, trial)
+            counts[INTERRUPTED] += 1
+        name = exc.signal_name if isinstance(exc, StopRequested) else "SIGINT"
+        summary.signal_name = name
+        summary.exit_code = exc.exit_code if isinstance(exc, StopRequested) else 130
+        summary.stop_reason = f"stopped by {name}"
+        state = "interrupted"
+    except BaseException:
+        if trial is not None:
+            _mark_interrupted(study, trial)
+        state = "crashed"
+        raise
+    finally:
+        runner.close()
+        heartbeat.stop()
+        store.end_launch(launch_id, state=state, reason=summary.stop_reason or "error")
+    summary.elapsed = clock.now() - started
+    summary.counts = counts
+    _fill_best(summary, study)
+    return summary
+
+
+def _pruning_hook(trial: Any) -> Callable[[int, float], bool]:
+    def should_prune(step: int, value: float) -> bool:
+        trial.report(value, step)
+        return bool(trial.should_prune())
+
+    return should_prune
+
+
+def _record(study: Any, trial: Any, outcome: Outcome) -> str:
+    storage = study._storage
+    if outcome.kind == "complete" and outcome.result is not None:
+        result = outcome.result
+        storage.set_trial_user_attr(trial._trial_id, "fold_scores", result.fold_scores)
+        for key, value in result.extras.items():
+            storage.set_trial_user_attr(trial._trial_id, key, value)
+        storage.set_trial_user_attr(trial._trial_id, "cpu_seconds", outcome.cpu_seconds)
+        study.tell(trial, result.value)
+        return "complete"
+    if outcome.kind == "pruned":
+        storage.set_trial_user_attr(trial._trial_id, "fidelity", f"step {outcome.last_step}")
+        storage.set_trial_user_attr(trial._trial_id, "cpu_seconds", outcome.cpu_seconds)
+        study.tell(trial, state=TrialState.PRUNED)
+        return "pruned"
+    if outcome.kind == "failed":
+        storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, "failed")
+        storage.set_trial_user_attr(trial._trial_id, "error", outcome.error)
+        study.tell(trial, state=TrialState.FAIL)
+        return "failed"
+    _mark_interrupted(study, trial)
+    return INTERRUPTED
+
+
+def _mark_interrupted(study: Any, trial: Any) -> None:
+    study._storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, INTERRUPTED)
+    study.tell(trial, state=TrialState.FAIL)
+
+
+def _stop_reason(now: float, deadline: float | None, left_cpu: float | None, heartbeat: _Heartbeat,
+                 left_trials: int | None, done_here: int, durations: dict[str, list[float]]) -> str:
+    if left_trials is not None and done_here >= left_trials:
+        return "trial count reached"
+    if left_cpu is not None and heartbeat.cpu_seconds() >= left_cpu:
+        return "CPU budget spent"
+    if deadline is not None:
+        left = deadline - now
+        if left <= 0:
+            return "time budget spent"
+        fastest = _fastest_family(durations)
+        if fastest is not None and left < fastest:
+            return "time budget spent (no trial fits in what is left)"
+    return ""
+
+
+def _fastest_family(durations: dict[str, list[float]]) -> float | None:
+    medians = [statistics.median(v) for v in durations.values() if len(v) >= 2]
+    return min(medians) if medians else None
+
+
+def _past_durations(study: Any) -> dict[str, list[float]]:
+    out: dict[str, list[float]] = {}
+    for t in study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,)):
+        if t.duration is not None:
+            out.setdefault(str(t.params.get("family", "")), []).append(t.duration.total_seconds())
+    return out
+
+
+def _finished_count(study: Any) -> int:
+    return sum(1 for t in study.get_trials(deepcopy=False) if trial_state(t) in ("complete", "pruned", "failed"))
+
+
+def _progress(study: Any, started: float, box: float | None, counts: dict[str, int], kind: str,
+              outcome: Outcome) -> Progress:
+    return Progress(started=started, box_seconds=box, trials=sum(counts.values()), counts=dict(counts),
+                    best=_best_value(study), last_state=kind)
+
+
+def _best_value(study: Any) -> float | None:
+    try:
+        return float(study.best_value)
+    except ValueError:
+        return None
+
+
+def _fill_best(summary: SearchSummary, study: Any) -> None:
+    try:
+        best = study.best_trial
+    except ValueError:
+        return
+    summary.best_value, summary.best_trial = float(best.value), best.number
+
+
+def _cpu_total() -> float:
+    t = os.times()
+    return t.user + t.system + t.children_user + t.children_system

@@ -1,0 +1,216 @@
+"""The verbs that search: ``run`` starts a study, ``resume`` continues one, ``worker`` joins one."""
+
+from __future__ import annotations
+
+import os
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable
+
+from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset
+from tunelab.engine import (
+    Budget,
+    Clock,
+    CrossValidationObjective,
+    ForkRunner,
+    Progress,
+    SearchSettings,
+    SearchSummary,
+    SystemClock,
+    fold_count,
+    make_pruner,
+    resolve_metric,
+    search,
+)
+from tunelab.errors import InputError, StudyStateError
+from tunelab.ops._signals import stop_on_signals
+from tunelab.space import SpaceSpec, default_space
+from tunelab.store import Store, StudyRecord
+
+
+@dataclass(frozen=True)
+class RunRequest:
+    """Everything ``run`` needs, validated before the store is touched."""
+
+    data: Path
+    target: str
+    budget: Budget
+    store: str | None = None
+    study: str | None = None
+    task: str | None = None
+    metric: str | None = None
+    seed: int = 0
+    space_file: Path | None = None
+    pruning: str = "auto"
+    jobs: int = 1
+
+
+@dataclass
+class StudyStart:
+    """What the user should know as a launch begins."""
+
+    study: str
+    store: str
+    rows: int
+    columns: int
+    task: str
+    metric: str
+    direction: str
+    budget: Budget
+    spent_wall: float
+    notes: list[str] = field(default_factory=list)
+    resumed: bool = False
+
+
+@dataclass
+class RunResult:
+    """A finished launch: the study, how it ended, and its best trial."""
+
+    study: str
+    store: str
+    metric: str
+    direction: str
+    summary: SearchSummary
+    best_config: dict[str, Any] = field(default_factory=dict)
+
+
+Announce = Callable[[StudyStart], None]
+OnProgress = Callable[[Progress], None]
+
+
+def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Announce | None = None,
+              on_progress: OnProgress | None = None, runner_factory: Callable[[Any], Any] = ForkRunner,
+              settings: SearchSettings | None = None) -> RunResult:
+    """Create a study for a data file and search it within its budget."""
+    clock = clock or SystemClock()
+    dataset = load_dataset(request.data, request.target, request.task)
+    metric = resolve_metric(request.metric, dataset.task)
+    space = _load_space(request.space_file) if request.space_file else default_space(dataset.task, dataset.roles)
+    _check_space_fits(space, dataset)
+    pruner_kind = request.pruning
+    make_pruner(pruner_kind, max_steps=5)  # validate before the store is touched
+    with Store.open(request.store, create=True) as store:
+        name = request.study or _unique_name(request.data.stem, store.study_names())
+        if request.study and request.study in store.study_names():
+            raise InputError(f"study '{request.study}' already exists in {store.location.display()}",
+                             f"continue it with `tunelab resume {request.study}`, or pick another --study name")
+        record = store.create_study(
+            name=name, now=clock.now(), data_path=str(request.data.resolve()),
+            data_sha256=file_sha256(request.data), fingerprint=dataset.fingerprint, target=request.target,
+            task=dataset.task, metric=metric.name, direction=metric.direction, seed=request.seed,
+            budget_wall=request.budget.wall_seconds, budget_cpu=request.budget.cpu_seconds,
+            budget_trials=request.budget.trials,
+            settings={"pruning": pruner_kind, "jobs": request.jobs,
+                      "n_folds": fold_count(dataset.n_rows, dataset.task, dataset.y)},
+            space_json=space.to_json(), space_reason=space.family_reason or "initial search space",
+        )
+        study = _optuna_study(store, record, launch_number=0, expected_trials=None, create=True)
+        for config in space.warm_starts:
+            study.enqueue_trial(dict(config), user_attrs={"tl_warm_start": True})
+        return _launch(store, record, study, dataset, space, request.budget, clock=clock, announce=announce,
+                       on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
+                       jobs=request.jobs, notes=dataset.notes)
+
+
+def resume_study(name: str, *, store: str | None = None, extend_seconds: float = 0.0, extend_trials: int = 0,
+                 data: Path | None = None, accept_changed_data: bool = False, clock: Clock | None = None,
+                 announce: Announce | None = None, on_progress: OnProgress | None = None,
+                 runner_factory: Callable[[Any], Any] = ForkRunner, settings: SearchSettings | None = None,
+                 jobs: int = 1) -> RunResult:
+    """Continue a study with what is left of its budget (plus any extension)."""
+    clock = clock or SystemClock()
+    with Store.open(store) as st:
+        record = st.get_study(name)
+        path = Path(data) if data else Path(record.data_path)
+        if not path.exists():
+            raise StudyStateError(f"the data file of study '{name}' is gone: {path}",
+                                  "point to its new place with --data PATH")
+        sha = file_sha256(path)
+        if sha != record.data_sha256 and not accept_changed_data:
+            raise StudyStateError(f"data file {path} changed since study '{name}' started (sha256 differs)",
+                                  "restore the original file, start a new study, or pass --accept-changed-data")
+        dataset = load_dataset(path, record.target, record.task)
+        updates: dict[str, Any] = {}
+        if sha != record.data_sha256 or str(path.resolve()) != record.data_path:
+            updates.update(data_sha256=sha, data_path=str(path.resolve()),
+                           fingerprint=dataset_fingerprint(sha, record.target, record.task))
+        budget = Budget(record.budget_wall, record.budget_cpu, record.budget_trials)
+        if extend_seconds or extend_trials:
+            budget = budget.extended(extend_seconds, extend_trials)
+            updates.update(budget_wall=budget.wall_seconds, budget_trials=budget.trials)
+        if updates:
+            st.update_study(record.id, **updates)
+            record = st.get_study(name)
+        phases = st.phases(record.id)
+        space = SpaceSpec.from_json(phases[-1].space_json)
+        launches = len(st.launches(record.id))
+        study = _optuna_study(st, record, launch_number=launches, expected_trials=None, create=False)
+        settings = settings or SearchSettings()
+        settings.phase = phases[-1].number
+        settings.kind = "resume"
+        return _launch(st, record, study, dataset, space, budget, clock=clock, announce=announce,
+                       on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=True,
+                       jobs=jobs, notes=dataset.notes)
+
+
+def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, space: SpaceSpec, budget: Budget, *,
+            clock: Clock, announce: Announce | None, on_progress: OnProgress | None,
+            runner_factory: Callable[[Any], Any], settings: SearchSettings | None, resumed: bool, jobs: int,
+            notes: list[str]) -> RunResult:
+    metric = resolve_metric(record.metric, record.task)
+    spent_wall, _ = store.spent(record.id)
+    if announce is not None:
+        announce(StudyStart(record.name, store.location.display(), dataset.n_rows, dataset.X.shape[1],
+                            record.task, record.metric, record.direction, budget, spent_wall, notes, resumed))
+    threads = max(1, (os.cpu_count() or 1) // max(1, jobs))
+    objective = CrossValidationObjective(dataset, metric, seed=record.seed, n_threads=threads,
+                                         n_folds=record.settings.get("n_folds"))
+    runner = runner_factory(objective)
+    with stop_on_signals():
+        summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
+                         on_progress=on_progress)
+    best: dict[str, Any] = {}
+    if summary.best_trial is not None:
+        best = dict(study.trials[summary.best_trial].params)
+    return RunResult(record.name, store.location.display(), record.metric, record.direction, summary, best)
+
+
+def _optuna_study(store: Store, record: StudyRecord, *, launch_number: int, expected_trials: float | None,
+                  create: bool) -> Any:
+    import optuna
+
+    sampler = optuna.samplers.TPESampler(seed=record.seed + launch_number, multivariate=True, group=True,
+                                         constant_liar=True, warn_independent_sampling=False)
+    n_folds = int(record.settings.get("n_folds", 5))
+    pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds, expected_trials=expected_trials)
+    storage = store.optuna_storage()
+    if create:
+        return optuna.create_study(storage=storage, study_name=record.name, direction=record.direction,
+                                   sampler=sampler, pruner=pruner)
+    return optuna.load_study(study_name=record.name, storage=storage, sampler=sampler, pruner=pruner)
+
+
+def _unique_name(stem: str, taken: set[str]) -> str:
+    base = re.sub(r"[^A-Za-z0-9_.-]+", "-", stem).strip("-") or "study"
+    if base not in taken:
+        return base
+    n = 2
+    while f"{base}-{n}" in taken:
+        n += 1
+    return f"{base}-{n}"
+
+
+def _load_space(path: Path) -> SpaceSpec:
+    if not path.exists():
+        raise InputError(f"search space file not found: {path}", "write one with `tunelab profile --write-space FILE`")
+    return SpaceSpec.from_json(path.read_text(encoding="utf-8"))
+
+
+def _check_space_fits(space: SpaceSpec, dataset: Dataset) -> None:
+    from tunelab.models import FAMILIES
+
+    unknown = [f for f in space.families if f not in FAMILIES]
+    if unknown:
+        raise InputError(f"search space names unknown families: {', '.join(unknown)}",
+                         f"families are: {', '.join(FAMILIES)}")

@@ -1,0 +1,130 @@
+"""The ``export`` and ``predict`` verbs: refit the best pipeline, write it, use it."""
+
+from __future__ import annotations
+
+import platform
+import warnings
+from dataclasses import asdict, dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from tunelab import __version__
+from tunelab.data import clean_column, load_dataset, read_table
+from tunelab.engine import Clock, SystemClock, trial_state
+from tunelab.errors import InputError, ModelFileError, StudyStateError
+from tunelab.models import build_pipeline
+from tunelab.models._model_file import check_columns, load_pipeline, read_meta, write_model_file
+from tunelab.store import Store
+
+
+@dataclass
+class ExportResult:
+    study: str
+    path: str
+    sha256: str
+    trial: int
+    metric: str
+    score: float
+    family: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+@dataclass
+class PredictResult:
+    path: str
+    rows: int
+    columns: list[str]
+    extra_columns: list[str]
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+def export_model(name: str, out: Path, *, store: str | None = None, trial: int | None = None,
+                 clock: Clock | None = None) -> ExportResult:
+    """Refit the best (or a chosen) trial's pipeline on all rows and write a model file."""
+    import optuna
+
+    clock = clock or SystemClock()
+    if out.exists() and out.is_dir():
+        raise InputError(f"--out {out} is a folder", "pass a file path such as model.zip")
+    if not out.parent.exists():
+        raise InputError(f"folder {out.parent} does not exist", "create it, or choose another --out")
+    with Store.open(store) as st:
+        record = st.get_study(name)
+        study = optuna.load_study(study_name=record.name, storage=st.optuna_storage())
+        done = [t for t in study.get_trials(deepcopy=False) if trial_state(t) == "complete"]
+        if not done:
+            raise StudyStateError(f"study '{name}' has no finished trial to export",
+                                  f"give it more budget: tunelab resume {name} --extend 10m")
+        if trial is None:
+            pick = max if record.direction == "maximize" else min
+            chosen = pick(done, key=lambda t: t.value)
+        else:
+            matches = [t for t in done if t.number == trial]
+            if not matches:
+                raise InputError(f"trial {trial} of study '{name}' is not a finished trial",
+                                 f"see the finished trials with `tunelab status {name}`")
+            chosen = matches[0]
+        dataset = load_dataset(Path(record.data_path), record.target, record.task)
+        config = dict(chosen.params)
+        pipeline = build_pipeline(config, dataset.roles, {c.name: c.n_unique for c in dataset.columns},
+                                  dataset.task, seed=record.seed, n_threads=-1)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            pipeline.fit(dataset.X, dataset.y)
+        meta = {
+            "study": record.name, "trial": chosen.number, "metric": record.metric, "direction": record.direction,
+            "cv_score": chosen.value, "fold_scores": chosen.user_attrs.get("fold_scores"),
+            "task": record.task, "target": record.target, "classes": [_plain(c) for c in dataset.classes],
+            "columns": list(dataset.X.columns), "dtypes": {c: str(t) for c, t in dataset.X.dtypes.items()},
+            "roles": dataset.roles, "config": config, "data_sha256": record.data_sha256,
+            "versions": _versions(),
+        }
+        sha = write_model_file(out, pipeline, meta)
+        st.record_export(record.id, now=clock.now(), path=str(out.resolve()), sha256=sha, trial_number=chosen.number)
+    return ExportResult(record.name, str(out), sha, chosen.number, record.metric, float(chosen.value),
+                        str(config.get("family", "")))
+
+
+def predict_file(model: Path, data: Path, out: Path) -> PredictResult:
+    """Check the model file and the input columns, then write predictions (and class probabilities)."""
+    meta = read_meta(model)
+    frame = read_table(data)
+    check_columns(meta, frame)
+    extra = [str(c) for c in frame.columns if c not in meta["columns"]]
+    pipeline = load_pipeline(model, meta)
+    features = _features_like_training(frame, meta)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        result = pd.DataFrame({"prediction": pipeline.predict(features)})
+        if meta["task"] != "regression":
+            proba = pipeline.predict_proba(features)
+            for i, cls in enumerate(pipeline.classes_):
+                result[f"proba_{cls}"] = proba[:, i]
+    if not out.parent.exists():
+        raise InputError(f"folder {out.parent} does not exist", "create it, or choose another --out")
+    result.to_csv(out, index=False)
+    return PredictResult(str(out), len(result), list(result.columns), extra)
+
+
+def _features_like_training(frame: pd.DataFrame, meta: dict[str, Any]) -> pd.DataFrame:
+    """Clean new rows the same way training rows were cleaned (roles fixed from the model file)."""
+    return pd.DataFrame({c: clean_column(frame[c], meta["roles"][c]) for c in meta["columns"]})
+
+
+def _plain(value: Any) -> Any:
+    return value.item() if isinstance(value, np.generic) else value
+
+
+def _versions() -> dict[str, str]:
+    import optuna
+    import sklearn
+
+    return {"tunelab": __version__, "python": platform.python_version(), "scikit-learn": sklearn.__version__,
+            "optuna": optuna.__version__, "pandas": pd.__version__, "numpy": np.__version__}

@@ -1,0 +1,237 @@
+"""The serialisable search-space spec: what is searched, over which ranges, and why.
+
+A space has unconditional parameters (``params``, e.g. ``prep.text_features``) and, optionally,
+model families; choosing a family is the categorical parameter ``family`` and each family's
+parameters are named ``<family>.<name>`` so they stay distinct (conditional search space).
+Every decision carries a one-line ``reason`` so ``profile`` can explain the space.
+A config is the flat dict a trial samples: ``{"family": "hist_gb", "hist_gb.learning_rate": 0.05, ...}``.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field, replace
+from typing import Any, Literal, Mapping
+
+import optuna
+from optuna.distributions import (
+    BaseDistribution,
+    CategoricalDistribution,
+    FloatDistribution,
+    IntDistribution,
+)
+
+from tunelab.errors import InputError
+
+ParamKind = Literal["float", "int", "categorical", "fixed"]
+SPEC_VERSION = 1
+
+
+@dataclass(frozen=True)
+class ParamSpec:
+    """One hyperparameter: its kind, range or choices, scale, and the reason for them."""
+
+    kind: ParamKind
+    low: float | None = None
+    high: float | None = None
+    log: bool = False
+    choices: tuple[Any, ...] = ()
+    value: Any = None
+    reason: str = ""
+
+    def __post_init__(self) -> None:
+        if self.kind in ("float", "int"):
+            if self.low is None or self.high is None or not self.low <= self.high:
+                raise InputError(f"bad range [{self.low}, {self.high}] in search space", "low must be <= high")
+            if self.log and self.low <= 0:
+                raise InputError(f"log-scale range must be positive, got low={self.low}", "raise low above 0")
+        elif self.kind == "categorical":
+            if not self.choices:
+                raise InputError("categorical parameter with no choices", "give at least one choice")
+        elif self.kind != "fixed":
+            raise InputError(f"unknown parameter kind '{self.kind}'", "use float, int, categorical or fixed")
+
+    def distribution(self) -> BaseDistribution | None:
+        """The optuna distribution, or None for a fixed value."""
+        if self.kind == "float":
+            return FloatDistribution(float(self.low), float(self.high), log=self.log)  # type: ignore[arg-type]
+        if self.kind == "int":
+            return IntDistribution(int(self.low), int(self.high), log=self.log)  # type: ignore[arg-type]
+        if self.kind == "categorical":
+            return CategoricalDistribution(list(self.choices))
+        return None
+
+    def suggest(self, trial: optuna.Trial, name: str) -> Any:
+        if self.kind == "float":
+            return trial.suggest_float(name, float(self.low), float(self.high), log=self.log)  # type: ignore[arg-type]
+        if self.kind == "int":
+            return trial.suggest_int(name, int(self.low), int(self.high), log=self.log)  # type: ignore[arg-type]
+        if self.kind == "categorical":
+            return trial.suggest_categorical(name, list(self.choices))
+        return self.value
+
+    def centre(self) -> Any:
+        """A middle value: geometric mean on log scale, choice order for categoricals."""
+        if self.kind == "fixed":
+            return self.value
+        if self.kind == "categorical":
+            return self.choices[0]
+        mid = math.sqrt(self.low * self.high) if self.log else (self.low + self.high) / 2  # type: ignore[operator]
+        return int(round(mid)) if self.kind == "int" else float(mid)
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"kind": self.kind}
+        if self.kind in ("float", "int"):
+            out.update(low=self.low, high=self.high, log=self.log)
+        elif self.kind == "categorical":
+            out["choices"] = list(self.choices)
+        else:
+            out["value"] = self.value
+        if self.reason:
+            out["reason"] = self.reason
+        return out
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> "ParamSpec":
+        known = {"kind", "low", "high", "log", "choices", "value", "reason"}
+        unknown = set(data) - known
+        if unknown:
+            raise InputError(f"unknown keys in parameter spec: {', '.join(sorted(unknown))}",
+                             f"allowed keys: {', '.join(sorted(known))}")
+        args = dict(data)
+        if "choices" in args:
+            args["choices"] = tuple(args["choices"])
+        return cls(**args)
+
+
+def fixed(value: Any, reason: str = "") -> ParamSpec:
+    """A parameter held at one value (a frozen knob)."""
+    return ParamSpec("fixed", value=value, reason=reason)
+
+
+@dataclass(frozen=True)
+class FamilySpec:
+    """A model family and its own hyperparameters (names without the family prefix)."""
+
+    params: Mapping[str, ParamSpec]
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class SpaceSpec:
+    """A whole search space; JSON round-trips through :meth:`to_json` / :meth:`from_json`."""
+
+    params: Mapping[str, ParamSpec] = field(default_factory=dict)
+    families: Mapping[str, FamilySpec] = field(default_factory=dict)
+    warm_starts: tuple[Mapping[str, Any], ...] = ()
+    notes: tuple[str, ...] = ()
+    family_reason: str = ""
+
+    def sample(self, trial: optuna.Trial) -> dict[str, Any]:
+        """Draw one config through the trial (TPE sees the conditional structure)."""
+        config: dict[str, Any] = {}
+        for name, spec in self.params.items():
+            config[name] = spec.suggest(trial, name)
+        if self.families:
+            names = list(self.families)
+            family = trial.suggest_categorical("family", names) if len(names) > 1 else names[0]
+            config["family"] = family
+            for pname, spec in self.families[family].params.items():
+                full = f"{family}.{pname}"
+                config[full] = spec.suggest(trial, full)
+        return config
+
+    def distributions(self) -> dict[str, BaseDistribution]:
+        """Every searched parameter's optuna distribution (fixed ones left out)."""
+        out: dict[str, BaseDistribution] = {}
+        for name, spec in self.params.items():
+            dist = spec.distribution()
+            if dist is not None:
+                out[name] = dist
+        if len(self.families) > 1:
+            out["family"] = CategoricalDistribution(list(self.families))
+        for family, fspec in self.families.items():
+            for pname, spec in fspec.params.items():
+                dist = spec.distribution()
+                if dist is not None:
+                    out[f"{family}.{pname}"] = dist
+        return out
+
+    def lookup(self, name: str) -> ParamSpec | None:
+        """The spec of a full parameter name (``prep.x``, ``family``, ``hist_gb.learning_rate``)."""
+        if name in self.params:
+            return self.params[name]
+        if name == "family" and self.families:
+            return ParamSpec("categorical", choices=tuple(self.families))
+        family, _, pname = name.partition(".")
+        if family in self.families and pname in self.families[family].params:
+            return self.families[family].params[pname]
+        return None
+
+    def freeze(self, values: Mapping[str, Any], reason: str) -> "SpaceSpec":
+        """A narrowed copy: each named parameter held at its value (``family`` keeps one family)."""
+        params = dict(self.params)
+        families = {k: FamilySpec(dict(v.params), v.reason) for k, v in self.families.items()}
+        for name, value in values.items():
+            if self.lookup(name) is None:
+                raise InputError(f"unknown parameter '{name}'",
+                                 f"parameters are: {', '.join(sorted(self.distributions()))}")
+            if name == "family":
+                if value not in families:
+                    raise InputError(f"unknown family '{value}'", f"families are: {', '.join(families)}")
+                families = {value: families[value]}
+            elif name in params:
+                params[name] = fixed(value, reason)
+            else:
+                family, _, pname = name.partition(".")
+                if family in families:
+                    inner = dict(families[family].params)
+                    inner[pname] = fixed(value, reason)
+                    families[family] = FamilySpec(inner, families[family].reason)
+        return replace(self, params=params, families=families, warm_starts=())
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "version": SPEC_VERSION,
+            "params": {k: v.to_dict() for k, v in self.params.items()},
+            "families": {
+                k: {"reason": v.reason, "params": {p: s.to_dict() for p, s in v.params.items()}}
+                for k, v in self.families.items()
+            },
+            "family_reason": self.family_reason,
+            "warm_starts": [dict(w) for w in self.warm_starts],
+            "notes": list(self.notes),
+        }
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict(), indent=2, sort_keys=False)
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any]) -> "SpaceSpec":
+        version = data.get("version", SPEC_VERSION)
+        if version > SPEC_VERSION:
+            raise InputError(f"search space spec version {version} is newer than this tunelab understands",
+                             "upgrade tunelab")
+        families = {
+            name: FamilySpec({p: ParamSpec.from_dict(s) for p, s in f.get("params", {}).items()}, f.get("reason", ""))
+            for name, f in data.get("families", {}).items()
+        }
+        return cls(
+            params={k: ParamSpec.from_dict(v) for k, v in data.get("params", {}).items()},
+            families=families,
+            warm_starts=tuple(data.get("warm_starts", ())),
+            notes=tuple(data.get("notes", ())),
+            family_reason=data.get("family_reason", ""),
+        )
+
+    @classmethod
+    def from_json(cls, text: str) -> "SpaceSpec":
+        try:
+            data = json.loads(text)
+        except json.JSONDecodeError as exc:
+            raise InputError(f"search space is not valid JSON: {exc.msg} at line {exc.lineno}",
+                             "fix the JSON, or write a fresh one with `tunelab profile --write-space`") from exc
+        if not isinstance(data, dict):
+            raise InputError("search space JSON must be an object", "see `tunelab profile --write-space`")
+        return cls.from_dict(data)

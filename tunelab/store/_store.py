@@ -1,0 +1,385 @@
+"""The study store: our tables for studies, phases, launches and exports; optuna's for trials.
+
+Every write is one committed transaction.  SQLite runs in WAL mode with a busy timeout, so a
+``kill -9`` at any moment leaves a consistent file.  Errors from SQLAlchemy and optuna are
+translated here into :class:`~tunelab.errors.StoreError`.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import os
+import socket
+from dataclasses import dataclass
+from datetime import datetime, timezone
+from typing import Any, Iterator
+
+from sqlalchemy import create_engine, event, func, inspect, select, update
+from sqlalchemy.engine import Engine
+from sqlalchemy.exc import DBAPIError, SQLAlchemyError
+
+from tunelab.errors import StoreError, StudyNotFound
+from tunelab.store import _schema as s
+from tunelab.store._location import Location, check_sqlite_file, resolve
+
+BUSY_TIMEOUT_S = 60
+CONNECT_TIMEOUT_S = 5
+
+
+def utc_iso(epoch: float) -> str:
+    """An epoch time as a UTC ISO 8601 string."""
+    return datetime.fromtimestamp(epoch, tz=timezone.utc).isoformat(timespec="seconds")
+
+
+@dataclass(frozen=True)
+class StudyRecord:
+    """A study's fixed facts: its data identity, target, task, metric, budget and seed."""
+
+    id: int
+    name: str
+    created_at: str
+    data_path: str
+    data_sha256: str
+    fingerprint: str
+    target: str
+    task: str
+    metric: str
+    direction: str
+    seed: int
+    budget_wall: float | None
+    budget_cpu: float | None
+    budget_trials: int | None
+    settings: dict[str, Any]
+
+
+@dataclass(frozen=True)
+class LaunchRecord:
+    """One process working on a study: when it started, its last heartbeat, what it spent."""
+
+    id: int
+    study_id: int
+    kind: str
+    host: str
+    pid: int
+    started_at: str
+    started_epoch: float
+    heartbeat_at: str
+    heartbeat_epoch: float
+    wall_seconds: float
+    cpu_seconds: float
+    trials_done: int
+    state: str
+    stop_reason: str
+
+
+@dataclass(frozen=True)
+class PhaseRecord:
+    """One search space a study used, from trial ``first_trial`` on."""
+
+    number: int
+    created_at: str
+    reason: str
+    space_json: str
+    first_trial: int
+
+
+class Store:
+    """An open store.  Use :meth:`open`; close with :meth:`close` or a ``with`` block."""
+
+    def __init__(self, location: Location, engine: Engine) -> None:
+        self.location = location
+        self.engine = engine
+        self._optuna: Any = None
+
+    # ---- opening -------------------------------------------------------------------------
+    @classmethod
+    def open(cls, store: str | None = None, *, create: bool = False) -> "Store":
+        """Open (and with ``create``, initialise) the store at a path or URL.
+
+        Raises
+        ------
+        StoreError
+            Not a SQLite file, not a tunelab store, written by a newer tunelab, unreachable,
+            or missing when ``create`` is false.
+        """
+        location = resolve(store)
+        if location.path is not None:
+            check_sqlite_file(location.path, create)
+            engine = create_engine(location.url, connect_args={"timeout": BUSY_TIMEOUT_S})
+            event.listen(engine, "connect", _sqlite_pragmas)
+        else:
+            kwargs: dict[str, Any] = {"pool_pre_ping": True}
+            if location.url.startswith("postgresql"):
+                kwargs["connect_args"] = {"connect_timeout": CONNECT_TIMEOUT_S}
+            engine = create_engine(location.url, **kwargs)
+        store = cls(location, engine)
+        try:
+            store._check_schema(create)
+        except BaseException:
+            engine.dispose()
+            raise
+        return store
+
+    def _check_schema(self, create: bool) -> None:
+        with self._translate("open"):
+            tables = set(inspect(self.engine).get_table_names())
+            if "tl_meta" in tables:
+                with self.engine.connect() as conn:
+                    row = conn.execute(select(s.meta.c.value).where(s.meta.c.key == "schema_version")).first()
+                version = int(row[0]) if row else 0
+                if version > s.SCHEMA_VERSION:
+                    raise StoreError(
+                        f"store {self.location.display()} was written by a newer tunelab (schema {version}, "
+                        f"this tunelab reads up to {s.SCHEMA_VERSION})", "upgrade tunelab: pip install -U tunelab")
+                if version < s.SCHEMA_VERSION:
+                    self._migrate(version)
+                return
+            if tables - _OPTUNA_TABLES:
+                raise StoreError(f"{self.location.display()} is a database but not a tunelab store",
+                                 "pass another --store; tunelab does not write into foreign databases")
+            if not create:
+                raise StoreError(f"store {self.location.display()} has no studies yet", "start one with `tunelab run`")
+            if self.location.path is not None:
+                with self.engine.connect() as conn:
+                    conn.exec_driver_sql("PRAGMA journal_mode=WAL")
+            with self.engine.begin() as conn:
+                s.metadata.create_all(conn)
+                conn.execute(s.meta.insert().values(key="schema_version", value=str(s.SCHEMA_VERSION)))
+
+    def _migrate(self, version: int) -> None:
+        """Bring an older schema up to date, one step per version, each in its own transaction."""
+        for step in range(version, s.SCHEMA_VERSION):
+            migration = MIGRATIONS.get(step)
+            if migration is None:
+                raise StoreError(f"no migration from store schema {step}", "export your studies with an older tunelab")
+            with self.engine.begin() as conn:
+                migration(conn)
+                conn.execute(update(s.meta).where(s.meta.c.key == "schema_version").values(value=str(step + 1)))
+
+    def close(self) -> None:
+        if self._optuna is not None:
+            with contextlib.suppress(Exception):
+                self._optuna.engine.dispose()
+        self.engine.dispose()
+
+    def __enter__(self) -> "Store":
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    @contextlib.contextmanager
+    def _translate(self, doing: str) -> Iterator[None]:
+        try:
+            yield
+        except StoreError:
+            raise
+        except DBAPIError as exc:
+            raise _store_error(self.location, doing, exc) from exc
+        except SQLAlchemyError as exc:
+            raise StoreError(f"store error while trying to {doing}: {_first_line(exc)}",
+                             "run again with --debug for details") from exc
+
+    def optuna_storage(self) -> Any:
+        """optuna's RDB storage on the same database (trials, params, intermediate values)."""
+        if self._optuna is None:
+            import optuna
+
+            kwargs: dict[str, Any] = {"pool_pre_ping": True}
+            if self.location.path is not None:
+                kwargs["connect_args"] = {"timeout": BUSY_TIMEOUT_S}
+            elif self.location.url.startswith("postgresql"):
+                kwargs["connect_args"] = {"connect_timeout": CONNECT_TIMEOUT_S}
+            with self._translate("open the trial tables"):
+                self._optuna = optuna.storages.RDBStorage(self.location.url, engine_kwargs=kwargs)
+        return self._optuna
+
+    # ---- studies ---------------------------------------------------------------------------
+    def create_study(self, *, name: str, now: float, data_path: str, data_sha256: str, fingerprint: str,
+                     target: str, task: str, metric: str, direction: str, seed: int,
+                     budget_wall: float | None, budget_cpu: float | None, budget_trials: int | None,
+                     settings: dict[str, Any], space_json: str, space_reason: str) -> StudyRecord:
+        """Insert a study and its first phase in one transaction."""
+        with self._translate("create the study"), self.engine.begin() as conn:
+            study_id = conn.execute(s.studies.insert().values(
+                name=name, created_at=utc_iso(now), data_path=data_path, data_sha256=data_sha256,
+                fingerprint=fingerprint, target=target, task=task, metric=metric, direction=direction,
+                seed=seed, budget_wall=budget_wall, budget_cpu=budget_cpu, budget_trials=budget_trials,
+                settings_json=json.dumps(settings),
+            )).inserted_primary_key[0]
+            conn.execute(s.phases.insert().values(study_id=study_id, number=1, created_at=utc_iso(now),
+                                                  reason=space_reason, space_json=space_json, first_trial=0))
+        return self.get_study(name)
+
+    def get_study(self, name: str) -> StudyRecord:
+        """A study by name.  Raises StudyNotFound with the closest names as a hint."""
+        with self._translate("read the study"), self.engine.connect() as conn:
+            row = conn.execute(select(s.studies).where(s.studies.c.name == name)).mappings().first()
+            if row is None:
+                names = [r[0] for r in conn.execute(select(s.studies.c.name).order_by(s.studies.c.id))]
+        if row is None:
+            import difflib
+
+            close = difflib.get_close_matches(name, names, n=3)
+            hint = (f"did you mean {', '.join(close)}?" if close else
+                    f"studies here: {', '.join(names[-5:])}" if names else "this store has no studies yet")
+            raise StudyNotFound(f"no study named '{name}' in {self.location.display()}", hint)
+        return _study(row)
+
+    def list_studies(self) -> list[StudyRecord]:
+        with self._translate("list studies"), self.engine.connect() as conn:
+            rows = conn.execute(select(s.studies).order_by(s.studies.c.id)).mappings().all()
+        return [_study(r) for r in rows]
+
+    def study_names(self) -> set[str]:
+        with self._translate("list studies"), self.engine.connect() as conn:
+            return {r[0] for r in conn.execute(select(s.studies.c.name))}
+
+    def update_study(self, study_id: int, **values: Any) -> None:
+        """Change a study's budget or data record (``resume --extend``, ``--accept-changed-data``)."""
+        if "settings" in values:
+            values["settings_json"] = json.dumps(values.pop("settings"))
+        with self._translate("update the study"), self.engine.begin() as conn:
+            conn.execute(update(s.studies).where(s.studies.c.id == study_id).values(**values))
+
+    # ---- phases ----------------------------------------------------------------------------
+    def phases(self, study_id: int) -> list[PhaseRecord]:
+        with self._translate("read the phases"), self.engine.connect() as conn:
+            rows = conn.execute(select(s.phases).where(s.phases.c.study_id == study_id)
+                                .order_by(s.phases.c.number)).mappings().all()
+        return [PhaseRecord(r["number"], r["created_at"], r["reason"], r["space_json"], r["first_trial"]) for r in rows]
+
+    def add_phase(self, study_id: int, *, now: float, reason: str, space_json: str, first_trial: int) -> int:
+        """Attach a new search space to the study; the next trials use it."""
+        with self._translate("add a phase"), self.engine.begin() as conn:
+            last = conn.execute(select(func.max(s.phases.c.number)).where(s.phases.c.study_id == study_id)).scalar()
+            number = int(last or 0) + 1
+            conn.execute(s.phases.insert().values(study_id=study_id, number=number, created_at=utc_iso(now),
+                                                  reason=reason, space_json=space_json, first_trial=first_trial))
+        return number
+
+    # ---- launches and the ledger -------------------------------------------------------------
+    def start_launch(self, study_id: int, *, kind: str, now: float) -> int:
+        with self._translate("record the launch"), self.engine.begin() as conn:
+            return int(conn.execute(s.launches.insert().values(
+                study_id=study_id, kind=kind, host=socket.gethostname(), pid=os.getpid(),
+                started_at=utc_iso(now), started_epoch=now, heartbeat_at=utc_iso(now), heartbeat_epoch=now,
+                wall_seconds=0.0, cpu_seconds=0.0, trials_done=0, state="running", stop_reason="",
+            )).inserted_primary_key[0])
+
+    def beat(self, launch_id: int, *, now: float, wall_seconds: float, cpu_seconds: float, trials_done: int) -> None:
+        """The heartbeat: what this launch has spent so far (a crash loses at most one interval)."""
+        with self._translate("write the heartbeat"), self.engine.begin() as conn:
+            conn.execute(update(s.launches).where(s.launches.c.id == launch_id).values(
+                heartbeat_at=utc_iso(now), heartbeat_epoch=now, wall_seconds=wall_seconds,
+                cpu_seconds=cpu_seconds, trials_done=trials_done))
+
+    def end_launch(self, launch_id: int, *, state: str, reason: str) -> None:
+        with self._translate("close the launch"), self.engine.begin() as conn:
+            conn.execute(update(s.launches).where(s.launches.c.id == launch_id).values(state=state, stop_reason=reason))
+
+    def launches(self, study_id: int) -> list[LaunchRecord]:
+        with self._translate("read the launches"), self.engine.connect() as conn:
+            rows = conn.execute(select(s.launches).where(s.launches.c.study_id == study_id)
+                                .order_by(s.launches.c.id)).mappings().all()
+        return [LaunchRecord(**dict(r)) for r in rows]
+
+    def mark_dead_launches(self, study_id: int, *, now: float, stale_after: float) -> list[int]:
+        """Mark running launches that died (pid gone on this host, or heartbeat stale) as crashed."""
+        host = socket.gethostname()
+        dead = [ln.id for ln in self.launches(study_id) if ln.state == "running" and (
+            (ln.host == host and not _pid_alive(ln.pid)) or now - ln.heartbeat_epoch > stale_after)]
+        if dead:
+            with self._translate("mark crashed launches"), self.engine.begin() as conn:
+                conn.execute(update(s.launches).where(s.launches.c.id.in_(dead))
+                             .values(state="crashed", stop_reason="process died; heartbeat stopped"))
+        return dead
+
+    def spent(self, study_id: int, exclude_launch: int | None = None) -> tuple[float, float]:
+        """Wall seconds (union of launch intervals, so parallel launches count once) and CPU seconds."""
+        rows = [ln for ln in self.launches(study_id) if ln.id != exclude_launch]
+        return union_length([(ln.started_epoch, ln.started_epoch + ln.wall_seconds) for ln in rows]), \
+            sum(ln.cpu_seconds for ln in rows)
+
+    # ---- exports ---------------------------------------------------------------------------
+    def record_export(self, study_id: int, *, now: float, path: str, sha256: str, trial_number: int) -> None:
+        with self._translate("record the export"), self.engine.begin() as conn:
+            conn.execute(s.exports.insert().values(study_id=study_id, created_at=utc_iso(now), path=path,
+                                                   sha256=sha256, trial_number=trial_number))
+
+    def integrity_ok(self) -> bool:
+        """SQLite's own consistency check (always true for server databases)."""
+        if self.location.path is None:
+            return True
+        with self.engine.connect() as conn:
+            return conn.exec_driver_sql("PRAGMA integrity_check").scalar() == "ok"
+
+
+MIGRATIONS: dict[int, Any] = {}  # schema N → callable(conn) bringing it to N + 1; alembic when it grows
+
+_OPTUNA_TABLES = {
+    "studies", "version_info", "study_directions", "study_user_attributes", "study_system_attributes",
+    "trials", "trial_user_attributes", "trial_system_attributes", "trial_params", "trial_values",
+    "trial_intermediate_values", "trial_heartbeats", "alembic_version",
+}
+
+
+def union_length(intervals: list[tuple[float, float]]) -> float:
+    """Total length covered by possibly overlapping intervals."""
+    total, end = 0.0, float("-inf")
+    for a, b in sorted(intervals):
+        if b <= end:
+            continue
+        total += b - max(a, end)
+        end = b
+    return total
+
+
+def _sqlite_pragmas(dbapi_conn: Any, _record: Any) -> None:
+    cursor = dbapi_conn.cursor()
+    cursor.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_S * 1000}")
+    cursor.execute("PRAGMA foreign_keys=ON")
+    cursor.close()
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    return True
+
+
+def _study(row: Any) -> StudyRecord:
+    data = dict(row)
+    data["settings"] = json.loads(data.pop("settings_json") or "{}")
+    return StudyRecord(**data)
+
+
+def _first_line(exc: BaseException) -> str:
+    text = str(exc).strip().splitlines()
+    return text[0] if text else type(exc).__name__
+
+
+def _store_error(location: Location, doing: str, exc: DBAPIError) -> StoreError:
+    text = _first_line(exc.orig if exc.orig is not None else exc)
+    where = location.display()
+    lowered = text.lower()
+    if "not a database" in lowered or "malformed" in lowered:
+        return StoreError(f"{where} is corrupt or not a SQLite database", "pass another --store; keep the file for inspection")
+    if "password authentication failed" in lowered or "authentication" in lowered:
+        return StoreError(f"cannot log in to {where}: {text}", "check the user and password in the store URL")
+    if "could not connect" in lowered or "connection refused" in lowered or "timeout expired" in lowered \
+            or "could not translate host" in lowered:
+        return StoreError(f"cannot reach the database at {where}: {text}", "check the host, port and that the server runs")
+    if "does not exist" in lowered and "database" in lowered:
+        return StoreError(f"database in {where} does not exist: {text}", "create it first, e.g. createdb NAME")
+    if "readonly" in lowered or "read-only" in lowered or "permission" in lowered:
+        return StoreError(f"cannot write to {where}: {text}", "fix permissions or pass another --store")
+    if "locked" in lowered:
+        return StoreError(f"store {where} stayed locked for {BUSY_TIMEOUT_S}s while trying to {doing}",
+                          "another process holds a long write; try again")
+    return StoreError(f"store error while trying to {doing}: {text}", "run again with --debug for details")
