@@ -32,6 +32,13 @@ EXIT_BAD_INPUT = 2
 @dataclass
 class _Flags:
     debug: bool = False
+    started: float = 0.0  # epoch seconds when the command began: the budget clock starts here
+
+
+def _settings(ctx: typer.Context) -> Any:
+    from tunelab.engine import SearchSettings
+
+    return SearchSettings(started=ctx.obj.started if ctx.obj else None)
 
 
 # ---- shared options, defined once ----------------------------------------------------------------
@@ -114,6 +121,7 @@ def _progress_hooks(metric_holder: dict[str, Any], quiet: bool) -> tuple[Any, An
 
 @app.command()
 def run(
+    ctx: typer.Context,
     data: Path = typer.Argument(..., help="CSV (any common delimiter, UTF-8) or Parquet file."),
     target: str = typer.Option(..., "--target", "-t", help="Column to predict."),
     budget: Optional[str] = typer.Option(None, "--budget", "-b",
@@ -147,7 +155,7 @@ def run(
                          seed=seed, space_file=space, pruning=pruning, jobs=jobs)
     announce, progress, close = _progress_hooks({}, quiet or json_out)
     try:
-        result = run_study(request, announce=announce, on_progress=progress)
+        result = run_study(request, announce=announce, on_progress=progress, settings=_settings(ctx))
     finally:
         close()
     raise typer.Exit(_search_output(result, json_out))
@@ -155,6 +163,7 @@ def run(
 
 @app.command()
 def resume(
+    ctx: typer.Context,
     study: str = typer.Argument(..., help="Name of the study to continue."),
     extend: Optional[str] = typer.Option(None, "--extend", help="Add this much time to the study's budget, e.g. 10m."),
     more_trials: int = typer.Option(0, "--more-trials", help="Add this many trials to the study's trial cap."),
@@ -178,7 +187,7 @@ def resume(
     try:
         result = resume_study(study, store=store, extend_seconds=seconds, extend_trials=more_trials, data=data,
                               accept_changed_data=accept_changed_data, announce=announce, on_progress=progress,
-                              jobs=jobs)
+                              jobs=jobs, settings=_settings(ctx))
     finally:
         close()
     raise typer.Exit(_search_output(result, json_out))
@@ -254,7 +263,12 @@ def predict(
 
 def main(argv: list[str] | None = None) -> None:
     """Entry point: run the app; map TunelabError to one line on stderr and exit code 2."""
-    flags = _Flags(debug="--debug" in (argv if argv is not None else sys.argv[1:]))
+    import time
+
+    flags = _Flags(debug="--debug" in (argv if argv is not None else sys.argv[1:]), started=time.time())
+    import logging
+
+    logging.getLogger("optuna").setLevel(logging.WARNING if flags.debug else logging.ERROR)
     try:
         app(args=argv, obj=flags, prog_name="tunelab", standalone_mode=True)
     except TunelabError as exc:

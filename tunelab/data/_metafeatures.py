@@ -10,9 +10,12 @@ trial runs.
 
 Definitions are chosen to agree with the reference implementation ``pymfe`` where it
 defines the same quantity (skewness and kurtosis "type 3", equal-frequency discretisation with
-``floor(n ** (1/3))`` bins for mutual information, entropies in bits, 10-fold stratified
-landmarking on standardised features, accuracy as the landmarking score); the tests check the
-agreement on scikit-learn's bundled data sets.  Where tunelab goes beyond pymfe (missing
+``floor(n ** (1/3))`` bins for mutual information, entropies in bits, accuracy over 10-fold
+stratified cross-validation for landmarkers).  Landmarkers use pymfe's optional protocol
+(shuffled folds, features standardised first: ``MFE(shuffle_cv_folds=True)`` with
+``fit(rescale="standard")``) rather than its default (unshuffled folds on raw values), because
+1-NN on raw values measures the units of the columns more than the data.  The tests check
+the agreement on scikit-learn's bundled data sets.  Where tunelab goes beyond pymfe (missing
 values, categorical / text / datetime columns, regression targets) the rule is stated in the
 docstring of the function that applies it.
 
@@ -29,20 +32,18 @@ import warnings
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, fields, is_dataclass
 from types import MappingProxyType
-from typing import TYPE_CHECKING, Any, Literal
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 
+from tunelab.data._roles import ROLES
+from tunelab.data._task import TASKS, Task
 from tunelab.errors import InputError
 
 if TYPE_CHECKING:  # pragma: no cover - imported lazily at run time to keep start-up fast
     from sklearn.base import BaseEstimator
 
-Task = Literal["binary", "multiclass", "regression"]
-
-TASKS: tuple[str, ...] = ("binary", "multiclass", "regression")
-ROLES: tuple[str, ...] = ("numeric", "categorical", "text", "datetime", "id")
 COST_FAMILIES: tuple[str, ...] = (
     "linear",
     "knn",
@@ -176,7 +177,9 @@ class InformationFeatures:
         the target.  Numeric and datetime columns are cut into ``floor(m ** (1/3))``
         equal-frequency bins (``m`` rows used), as pymfe does; categoricals use their levels;
         a missing value is a level of its own; text columns are left out.  For regression
-        the target is binned the same way (tunelab's extension).
+        the target is binned the same way (tunelab's extension).  Like every plug-in
+        estimate it grows with the number of levels: a near-unique categorical scores close
+        to the class entropy.
     rows_used
         Rows the figures were computed on.
     """
@@ -253,6 +256,9 @@ class CostProbe:
 @dataclass(frozen=True)
 class MetaFeatures:
     """All meta-features of one dataset, grouped as in Rivolli et al. (2022).
+
+    Frozen; the mappings inside are plain dicts, to be read only, so that the object
+    pickles to worker processes.
 
     Attributes
     ----------
@@ -511,7 +517,7 @@ def _simple_features(
         share_categorical=counts["categorical"] / n_columns,
         share_missing=share_missing,
         n_classes=None if y_codes is None else int(np.unique(y_codes).size),
-        mean_text_tokens=MappingProxyType(text_tokens),
+        mean_text_tokens=text_tokens,
     )
 
 
@@ -535,7 +541,14 @@ def _mean_tokens(s: pd.Series) -> float:
 def _numeric_matrix(X: pd.DataFrame, columns: Sequence[str], rows: np.ndarray) -> np.ndarray:
     if not columns:
         return np.empty((len(rows), 0))
-    return X[list(columns)].iloc[rows].to_numpy(dtype=float, na_value=np.nan)
+    return _finite(X[list(columns)].iloc[rows].to_numpy(dtype=float, na_value=np.nan))
+
+
+def _finite(values: np.ndarray) -> np.ndarray:
+    """Infinite values count as missing: no moment, quantile or scaler survives them."""
+    values = np.array(values, dtype=float)
+    values[np.isinf(values)] = np.nan
+    return values
 
 
 def _statistical_features(
@@ -638,7 +651,8 @@ def _information_features(
             continue
         s = X[column].iloc[rows]
         if role == "numeric":
-            codes = _equal_frequency_codes(s.to_numpy(dtype=float, na_value=np.nan), n_bins)
+            values = _finite(s.to_numpy(dtype=float, na_value=np.nan))
+            codes = _equal_frequency_codes(values, n_bins)
         elif role == "datetime":
             codes = _equal_frequency_codes(_datetime_seconds(s), n_bins)
         else:
@@ -736,7 +750,7 @@ def _design_matrix(
             parts.append((codes[:, None] == top[None, :]).astype(float))
             continue
         if role == "numeric":
-            v = s.to_numpy(dtype=float, na_value=np.nan)
+            v = _finite(s.to_numpy(dtype=float, na_value=np.nan))
         elif role == "datetime":
             v = _datetime_seconds(s)
         else:
@@ -746,6 +760,8 @@ def _design_matrix(
             v = np.where(missing, np.median(v[~missing]) if (~missing).any() else 0.0, v)
         parts.append(v[:, None])
     matrix = np.hstack(parts) if parts else np.zeros((len(rows), 0))
+    if matrix.shape[1] == 0:  # e.g. only an all-missing categorical: one constant column
+        matrix = np.zeros((len(rows), 1))
     return StandardScaler().fit_transform(matrix)
 
 
@@ -853,10 +869,14 @@ def _landmarkers(
                     f"{done} of {len(splits)} folds"
                 )
                 break
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")  # collinear LDA, constant folds
-                fitted = clone(model).fit(M[train], target[train])
-                predicted = fitted.predict(M[test])
+            try:
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore")  # collinear LDA, constant folds
+                    fitted = clone(model).fit(M[train], target[train])
+                    predicted = fitted.predict(M[test])
+            except Exception as exc:  # tiny or degenerate folds must not stop the profile
+                notes[name] = f"failed: {type(exc).__name__}: {exc}".splitlines()[0]
+                break
             fold_scores.append(_fold_score(target[test], predicted, classification))
         else:
             finite = [s for s in fold_scores if math.isfinite(s)]
@@ -872,7 +892,7 @@ def _landmarkers(
         linear=scores["linear"],
         rows_used=len(y),
         n_folds=len(splits),
-        notes=MappingProxyType(notes),
+        notes=notes,
     )
 
 
@@ -906,8 +926,12 @@ def _probe_models(classification: bool, seed: int) -> dict[str, _Probe]:
     boost = {"max_iter": 20, "early_stopping": False, "random_state": seed}
     if classification:
         return {
-            "linear": _Probe(linear_model.LogisticRegression(max_iter=200), "LogisticRegression", 1),
-            "knn": _Probe(neighbors.KNeighborsClassifier(), "KNeighborsClassifier(5 neighbours)", 1),
+            "linear": _Probe(
+                linear_model.LogisticRegression(max_iter=200), "LogisticRegression", 1
+            ),
+            "knn": _Probe(
+                neighbors.KNeighborsClassifier(), "KNeighborsClassifier(5 neighbours)", 1
+            ),
             "random_forest": _Probe(
                 ensemble.RandomForestClassifier(**trees), "RandomForestClassifier(100 trees)", 5
             ),
@@ -1008,7 +1032,7 @@ def _cost_probes(
             estimated_seconds=scaled_cost(seconds, len(y), max(n_rows, len(y)), scaling),
             scaling=scaling,
         )
-    return MappingProxyType(probes)
+    return probes
 
 
 def _time_fit(
@@ -1036,11 +1060,9 @@ __all__ = [
     "LANDMARKERS",
     "Landmarkers",
     "MetaFeatures",
-    "ROLES",
     "SCALING_RULES",
     "SimpleFeatures",
     "StatisticalFeatures",
-    "TASKS",
     "compute_metafeatures",
     "scaled_cost",
 ]

@@ -73,6 +73,7 @@ class SearchSettings:
 
     heartbeat_interval: float | None = 2.0
     stale_after: float = 30.0
+    started: float | None = None  # when the user's launch began (process start), if before this call
     phase: int = 1
     kind: str = "run"
 
@@ -122,7 +123,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
            on_progress: Callable[[Progress], None] | None = None) -> SearchSummary:
     """Run trials until the budget, the trial cap, or a stop request ends the launch."""
     settings = settings or SearchSettings()
-    started = clock.now()
+    started = settings.started if settings.started is not None else clock.now()
     fixes = recover(store, record, study, now=started, stale_after=settings.stale_after, phase=settings.phase)
     wall_spent, cpu_spent = store.spent(record.id)
     done = _finished_count(study)
