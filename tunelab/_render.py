@@ -12,8 +12,8 @@ from rich.table import Table
 
 from tunelab.engine import Progress, format_duration
 
-out = Console(highlight=False)
-err = Console(stderr=True, highlight=False)
+out = Console(highlight=False, soft_wrap=True)
+err = Console(stderr=True, highlight=False, soft_wrap=True)
 
 
 def fmt(value: float | None, digits: int = 4) -> str:

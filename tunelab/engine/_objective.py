@@ -3,10 +3,33 @@
 An objective is a callable ``objective(config, report) -> TrialResult``.  ``report(step, value)``
 hands an intermediate value to the engine and raises :class:`PruneSignal` when the trial should
 stop.  Objectives never touch the store or the terminal.
+
+Steps of the cross-validation objective
+---------------------------------------
+A pruner compares trials *at equal steps*, so a step must mean the same amount of work and the
+same kind of value for every family.  Here a step is a unit of work — one third of a fold
+(``STEPS_PER_FOLD = 3``) — and the value is always the study's metric on held-out rows:
+
+==========================  ========================================================
+step                        value reported
+==========================  ========================================================
+1, 2                        within the first fold, after 1/3 and 2/3 of the model's
+                            training (boosting rounds for gradient boosting, epochs for
+                            the MLP): the metric on the first fold's held-out rows
+3                           the first fold fully fitted: its held-out score
+3·f (f = 2 … k-1)           after fold f: the mean of the held-out scores of folds 1 … f
+==========================  ========================================================
+
+Families whose fit cannot be cut into parts (forests, linear models, k-NN, SVM) first report at
+step 3.  Because step numbers count work, a pruner's rungs placed at steps 1, 3, 9 mean "a third
+of a fold, one fold, three folds" for every family.  The last fold is not reported: the trial is
+then complete, and pruning it would only throw its result away.  Losses on other scales (the
+MLP's inner validation loss, training loss) are never reported.
 """
 
 from __future__ import annotations
 
+import math
 import time
 import warnings
 from dataclasses import dataclass, field
@@ -20,6 +43,8 @@ from tunelab.engine._folds import make_folds
 from tunelab.engine._metrics import Metric, score
 
 Report = Callable[[int, float], None]
+
+STEPS_PER_FOLD = 3
 
 
 class PruneSignal(Exception):
@@ -39,9 +64,26 @@ class Objective(Protocol):
     def __call__(self, config: Mapping[str, Any], report: Report) -> TrialResult: ...
 
 
+def fold_step(fold: int) -> int:
+    """The step reported when fold ``fold`` (counted from 1) is done."""
+    return STEPS_PER_FOLD * fold
+
+
+def step_folds(step: int) -> float:
+    """The work a step stands for, in folds (step 1 is a third of a fold)."""
+    return step / STEPS_PER_FOLD
+
+
+def describe_step(step: int, n_folds: int) -> str:
+    """Plain words for how far a trial got: ``"2/3 of fold 1"``, ``"2 of 5 folds"``."""
+    if step < STEPS_PER_FOLD:
+        return f"{step}/{STEPS_PER_FOLD} of fold 1"
+    return f"{step // STEPS_PER_FOLD} of {n_folds} folds"
+
+
 @dataclass
 class CrossValidationObjective:
-    """k-fold cross-validation of the pipeline a config describes, reporting the running mean.
+    """k-fold cross-validation of the pipeline a config describes, reporting on the step scale above.
 
     Parameters
     ----------
@@ -53,6 +95,8 @@ class CrossValidationObjective:
         Seeds the folds and the models, so the same config gives the same score.
     n_threads
         Cores a model may use inside one trial.
+    n_folds
+        Folds to use; by default chosen from the data size (see ``fold_count``).
     """
 
     dataset: Dataset
@@ -65,23 +109,139 @@ class CrossValidationObjective:
         self.folds = make_folds(self.dataset.y, self.dataset.task, self.seed, self.n_folds)
         self.cardinality = {c.name: c.n_unique for c in self.dataset.columns}
 
+    def describe_step(self, step: int) -> str:
+        """How far a trial that stopped at ``step`` got, in words."""
+        return describe_step(step, len(self.folds))
+
     def __call__(self, config: Mapping[str, Any], report: Report) -> TrialResult:
         from tunelab.models import build_pipeline
 
         X, y = self.dataset.X, self.dataset.y
         scores: list[float] = []
         started = time.perf_counter()
-        for step, (train, test) in enumerate(self.folds, start=1):
+        for fold, (train, test) in enumerate(self.folds, start=1):
             pipeline = build_pipeline(config, self.dataset.roles, self.cardinality, self.dataset.task,
                                       seed=self.seed, n_threads=self.n_threads)
             with warnings.catch_warnings(), threadpool_limits(self.n_threads):
                 warnings.simplefilter("ignore")
-                pipeline.fit(X.iloc[train], y[train])
-                scores.append(score(self.metric, y[test], pipeline, X.iloc[test], self.dataset.classes))
-            report(step, float(np.mean(scores)))
+                held_out = _HeldOut(self.metric, y[test], self.dataset.classes)
+                if fold == 1:
+                    fitted_score = fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, report)
+                else:
+                    pipeline.fit(X.iloc[train], y[train])
+                    fitted_score = held_out.score(pipeline, X.iloc[test])
+            scores.append(fitted_score)
+            if fold < len(self.folds):
+                report(fold_step(fold), float(np.mean(scores)))
         return TrialResult(
             value=float(np.mean(scores)),
             fold_scores=scores,
             extras={"fold_std": float(np.std(scores)), "fit_seconds": time.perf_counter() - started,
                     "fidelity": f"{len(scores)}/{len(self.folds)} folds"},
         )
+
+
+@dataclass
+class _HeldOut:
+    """The held-out rows' target and how to score a fitted model on them."""
+
+    metric: Metric
+    y: np.ndarray
+    classes: Any
+
+    def score(self, model: Any, X: Any) -> float:
+        return score(self.metric, self.y, model, X, self.classes)
+
+
+def fit_in_parts(pipeline: Any, X_train: Any, y_train: np.ndarray, X_test: Any, held_out: _HeldOut,
+                 report: Report) -> float:
+    """Fit the first fold, reporting the held-out score at steps 1 … STEPS_PER_FOLD-1 where the model allows.
+
+    Gradient boosting is grown in chunks with ``warm_start`` (the same model a single fit gives);
+    the MLP is scored on the held-out rows at epochs 1/3 and 2/3 of ``max_epochs``.  Any other
+    model is fitted once.  Returns the fully fitted model's held-out score.
+    """
+    model = pipeline.steps[-1][1]
+    if _is_boosting(model) and int(model.max_iter) >= STEPS_PER_FOLD:
+        prep = pipeline[:-1]
+        Xt_train = prep.fit_transform(X_train, y_train)
+        Xt_test = prep.transform(X_test)
+        _boost_in_chunks(model, Xt_train, y_train, Xt_test, held_out, report)
+        return held_out.score(model, Xt_test)
+    if _is_torch_mlp(model):
+        live = _watching(model)
+        pipeline.set_params(model=live)
+        prep = pipeline[:-1]
+        Xt_train = prep.fit_transform(X_train, y_train)
+        Xt_test = prep.transform(X_test)
+        live.fit(Xt_train, y_train, epoch_callback=_epoch_reporter(live, Xt_test, held_out, report))
+        return held_out.score(live, Xt_test)
+    pipeline.fit(X_train, y_train)
+    return held_out.score(pipeline, X_test)
+
+
+def chunk_ends(total: int, parts: int = STEPS_PER_FOLD) -> list[int]:
+    """Where each of ``parts`` near-equal chunks of ``total`` rounds ends (the last is ``total``)."""
+    return [math.ceil(total * k / parts) for k in range(1, parts + 1)]
+
+
+def _is_boosting(model: Any) -> bool:
+    from sklearn.ensemble import HistGradientBoostingClassifier, HistGradientBoostingRegressor
+
+    return isinstance(model, (HistGradientBoostingClassifier, HistGradientBoostingRegressor))
+
+
+def _boost_in_chunks(model: Any, X: Any, y: np.ndarray, X_test: Any, held_out: _HeldOut, report: Report) -> None:
+    # scikit-learn keeps the seeds of the first call when warm-starting, so growing the same
+    # model to max_iter in chunks gives the trees one fit would (checked in tests/test_pruning.py).
+    total = int(model.max_iter)
+    ends = chunk_ends(total)
+    model.set_params(warm_start=True)
+    for step, end in enumerate(ends[:-1], start=1):
+        model.set_params(max_iter=end)
+        model.fit(X, y)
+        report(step, held_out.score(model, X_test))
+    model.set_params(max_iter=total)
+    model.fit(X, y)
+    model.set_params(warm_start=False)
+
+
+def _is_torch_mlp(model: Any) -> bool:
+    # Checked by module name so that torch and the MLP module load only for MLP trials.
+    return type(model).__module__ == "tunelab.models._mlp"
+
+
+def _watching(model: Any) -> Any:
+    """A copy of an MLP estimator that can predict between epochs.
+
+    The MLP keeps the network it trains local to ``fit`` until training ends; this subclass
+    also publishes it as ``module_`` when training starts, so the epoch callback can score the
+    held-out rows on the study's metric.  If the estimator ever trains differently, the copy
+    simply never becomes ready and the first fold reports only when it is done.
+    """
+    base = type(model)
+
+    class Watching(base):  # type: ignore[misc, valid-type]
+        def _train(self, network: Any, *args: Any, **kwargs: Any) -> Any:
+            self.module_ = network
+            return super()._train(network, *args, **kwargs)
+
+    Watching.__name__ = Watching.__qualname__ = base.__name__
+    return Watching(**model.get_params())
+
+
+def _epoch_reporter(model: Any, X_test: Any, held_out: _HeldOut, report: Report) -> Callable[[int, float], None]:
+    """An ``epoch_callback`` that reports the held-out score at epochs 1/3 and 2/3 of ``max_epochs``."""
+    epochs = int(model.max_epochs)
+    ends = chunk_ends(epochs)[:-1] if epochs >= STEPS_PER_FOLD else []
+    checkpoints = {end: step for step, end in enumerate(ends, start=1)}
+
+    def on_epoch(epoch: int, validation_loss: float) -> None:
+        step = checkpoints.get(epoch)
+        if step is None or not hasattr(model, "module_"):
+            return
+        if not math.isfinite(validation_loss):
+            return  # the MLP stops on its own; the fold's final score is reported as usual
+        report(step, held_out.score(model, X_test))
+
+    return on_epoch

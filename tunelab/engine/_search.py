@@ -155,7 +155,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
             t0 = clock.now()
             cpu_left = None if left_cpu is None else max(0.0, left_cpu - heartbeat.cpu_seconds())
             outcome = runner.run(config, _pruning_hook(trial), Limits(deadline, cpu_left), clock)
-            kind = _record(study, trial, outcome)
+            kind = _record(study, trial, outcome, clock.now() - t0, getattr(runner, "objective", None))
             trial = None
             counts[kind] += 1
             if kind == "complete":
@@ -169,8 +169,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
                 summary.stop_reason = outcome.extras.get("stopped_by", "time budget") + " spent during a trial"
                 break
     except (KeyboardInterrupt, StopRequested) as exc:
-        if trial is not None:
-            _mark_interrupted(study, trial)
+        if trial is not None and _mark_interrupted(study, trial):
             counts[INTERRUPTED] += 1
         name = exc.signal_name if isinstance(exc, StopRequested) else "SIGINT"
         summary.signal_name = name
@@ -200,7 +199,7 @@ def _pruning_hook(trial: Any) -> Callable[[int, float], bool]:
     return should_prune
 
 
-def _record(study: Any, trial: Any, outcome: Outcome) -> str:
+def _record(study: Any, trial: Any, outcome: Outcome, seconds: float, objective: Any = None) -> str:
     storage = study._storage
     if outcome.kind == "complete" and outcome.result is not None:
         result = outcome.result
@@ -211,7 +210,11 @@ def _record(study: Any, trial: Any, outcome: Outcome) -> str:
         study.tell(trial, result.value)
         return "complete"
     if outcome.kind == "pruned":
-        storage.set_trial_user_attr(trial._trial_id, "fidelity", f"step {outcome.last_step}")
+        # How far it got and what it cost, so a pruned trial's saving can be read back.
+        describe = getattr(objective, "describe_step", None)
+        words = f" ({describe(outcome.last_step)})" if describe is not None else ""
+        storage.set_trial_user_attr(trial._trial_id, "fidelity", f"step {outcome.last_step}{words}")
+        storage.set_trial_user_attr(trial._trial_id, "seconds", seconds)
         storage.set_trial_user_attr(trial._trial_id, "cpu_seconds", outcome.cpu_seconds)
         study.tell(trial, state=TrialState.PRUNED)
         return "pruned"
@@ -224,9 +227,13 @@ def _record(study: Any, trial: Any, outcome: Outcome) -> str:
     return INTERRUPTED
 
 
-def _mark_interrupted(study: Any, trial: Any) -> None:
+def _mark_interrupted(study: Any, trial: Any) -> bool:
+    """Record a running trial as interrupted; False when it had already been recorded (a stop between steps)."""
+    if study._storage.get_trial(trial._trial_id).state.is_finished():
+        return False
     study._storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, INTERRUPTED)
     study.tell(trial, state=TrialState.FAIL)
+    return True
 
 
 def _stop_reason(now: float, deadline: float | None, left_cpu: float | None, heartbeat: _Heartbeat,

@@ -1,8 +1,7 @@
-"""Insight into a finished search: which parameters matter, and which can be frozen."""
+"""Insight into a search: which parameters matter, and which can be frozen at what value."""
 
 from tunelab.insight._importance import (
     FAMILY_PARAM,
-    SHARED_PREFIX,
     GroupNote,
     ImportanceReport,
     ImportanceRow,
@@ -13,7 +12,6 @@ from tunelab.insight._importance import (
 
 __all__ = [
     "FAMILY_PARAM",
-    "SHARED_PREFIX",
     "GroupNote",
     "ImportanceReport",
     "ImportanceRow",

@@ -1,6 +1,6 @@
 """Which knobs can I stop turning, and at what value?
 
-Pure functions over plain trial records (no database): each parameter gets a share of score
+Pure functions over plain trial records (no database): each parameter gets the share of score
 variance it explains, an 80 % interval from resampling the trials, the best value seen, how far
 it moves the score in metric units, and a verdict in plain words.
 
@@ -9,43 +9,49 @@ How the pieces fit
 * **Groups.** A parameter is judged among the trials that can show its effect. The ``family``
   parameter and every shared parameter (``prep.*`` and anything not named ``<family>.<name>``)
   are judged over all trials; a conditional parameter ``<family>.<name>`` only over that
-  family's trials (with the shared ``prep.*`` parameters in the model as well, so their
-  effect is not mistaken for noise).
-* **Importance.** optuna's evaluators do the core computation on an in-memory study:
+  family's trials, with the shared ``prep.*`` parameters in the model too, so that their
+  effect is not mistaken for noise.
+* **Importance.** optuna's evaluators do the core computation on an in-memory study.
   fANOVA (Hutter, Hoos & Leyton-Brown, ICML 2014) gives the share of score variance explained
-  by each parameter's main effect, not normalised, so the shares of a group add up to at most
-  one and the remainder is interactions and noise; PED-ANOVA (Watanabe et al., IJCAI 2023)
-  gives how much each parameter matters for reaching the top 10 % of scores, normalised to add
-  up to one within a group.
-* **Interval.** fANOVA fits a random forest in which every tree is grown on a bootstrap resample
-  of the trials. We grow the trees one at a time (``n_bootstrap`` of them, each with its own
-  seed), so each tree's answer is the answer of one bootstrap resample; the importance is their
-  mean (which is exactly the forest's answer) and the interval is their 10th-90th percentile.
-  A single resample's answer varies more than the mean does, so the interval errs wide, which
-  errs towards "keep tuning". PED-ANOVA has no resampling of its own and a resampled study
-  costs a full copy of the trials, so its interval comes from ``n_bootstrap`` random halves of
-  the trials (half-sampling; for averages its spread matches the bootstrap's, from memory:
-  Efron & Tibshirani 1993, *An Introduction to the Bootstrap*).
-* **Spread.** A separate random forest predicts the score from a group's parameters; the
-  predicted score is averaged over the observed trials while one parameter is set to each of
-  its values in turn (partial dependence: Friedman 2001, *Annals of Statistics* 29(5)).
-  Continuous parameters are binned into ``_SPREAD_BINS`` equal-width bins on their sampling
-  scale (log for log-scaled ones); integers with few values and categoricals use each value.
-  The spread is the max - min of that marginal mean score, in metric units.
-* **Speed.** optuna's fANOVA walks every tree in Python once per split point, so its cost grows
-  with tree size and with the number of distinct split points. Two measures keep 2,000 trials
-  within seconds: numeric values are snapped to ``_FANOVA_BINS`` cells of their sampling scale
-  before fitting (a step function on 32 cells keeps more than 99 % of a smooth main effect's
-  variance), and the tree depth is the deepest whose estimated cost fits ``_WORK_BUDGET``
-  (deep enough for few parameters, shallower for big spaces). The depth used is in the report.
+  by each parameter's main effect; it is not normalised, so the shares of a group add up to at
+  most one and the rest is interactions and noise. PED-ANOVA (Watanabe et al., IJCAI 2023)
+  gives how much each parameter matters for reaching the top ``top_quantile`` of scores,
+  normalised to add up to one within a group.
+* **Interval.** fANOVA fits a random forest in which every tree is grown on its own bootstrap
+  resample of the trials. We grow the trees one at a time, each with its own seed, so each
+  tree's answer is one bootstrap resample's answer: the importance is their mean (exactly the
+  forest's answer) and the interval their 10th-90th percentile. One resample's answer varies
+  more than the mean of many, so the interval errs wide, that is towards "keep tuning".
+  PED-ANOVA has no resampling of its own and copying a resampled study costs as much as the
+  computation, so its interval comes from random halves of the trials (half-sampling, whose
+  spread matches the bootstrap's for averages; from memory: Efron & Tibshirani 1993,
+  *An Introduction to the Bootstrap*).
+* **Spread.** A separate random forest predicts the score from a group's parameters. The
+  predicted score is averaged over the trials while one parameter is set to each of its values
+  in turn (partial dependence; Friedman 2001, *Annals of Statistics* 29(5)); continuous
+  parameters are binned into ``_SPREAD_BINS`` equal-width bins on their sampling scale (log for
+  log-scaled ones), integers with few values and categoricals use each value. The spread is
+  the max - min of that marginal mean score, in metric units. The same forest also sees
+  ``_N_PROBES`` made-up parameters drawn at random, which the score cannot depend on; the
+  largest spread among them is the group's noise floor, the spread a knob that does nothing
+  shows in these data (random probes, as in Boruta; from memory: Kursa & Rudnicki 2010,
+  *Journal of Statistical Software* 36(11)).
+* **Speed.** optuna's fANOVA walks each tree in Python once per split point and reads the whole
+  study on every call, so its cost grows with tree size, split points and trials. Numeric
+  values are snapped to ``_FANOVA_BINS`` cells of their sampling scale before fitting (a step
+  function on 32 cells keeps over 99 % of a smooth main effect's variance), and the trees are
+  as deep as a time model allows (``_choose_depth``): depth 10 for a few parameters, about 6
+  for a four-family space with 2,000 trials. The depth used is in the report.
 """
 
 from __future__ import annotations
 
+import logging
 import math
 import warnings
-from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from collections.abc import Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
 from typing import Any, Literal
 
 import numpy as np
@@ -65,18 +71,18 @@ Action = Literal["keep tuning", "freeze", "no measurable effect"]
 FAMILY_PARAM = "family"
 """Name of the categorical parameter that picks the model family."""
 
-SHARED_PREFIX = "prep."
-"""Prefix of the preprocessing parameters that every trial samples."""
-
 _FANOVA_BINS = 32  # numeric values are snapped to this many cells before fANOVA
 _SPREAD_BINS = 10  # bins of the marginal mean score behind ``spread``
-_SPREAD_TREES = 48
+_SPREAD_TREES = 32
 _SPREAD_BACKGROUND = 256  # trials the partial dependence averages over
+_N_PROBES = 4  # made-up parameters that show the spread of a knob that does nothing
 _MIN_DEPTH, _MAX_DEPTH = 5, 10
-# Estimated cost of one fANOVA tree is leaves x split points x parameters (see _choose_depth);
-# this budget was measured to take about 4-5 s on a 2-core machine (benchmarks/importance_speed.py).
-_WORK_BUDGET = 6.0e6
-_PED_TARGET_QUANTILE = 0.1
+# Time model of optuna's fANOVA, measured on the 2-core development machine: one evaluation
+# costs about _CALL_SECONDS per trial and parameter (it reads the whole study), and each tree
+# about _LEAF_SECONDS per leaf and parameter (one walk per split point, at most _FANOVA_BINS).
+_CALL_SECONDS = 15e-6
+_LEAF_SECONDS = 1.0e-4
+_FANOVA_SECONDS = 5.0  # the deepest trees whose estimate fits this are used
 
 
 @dataclass(frozen=True)
@@ -89,7 +95,7 @@ class TrialRecord:
         The trial number in its study.
     params
         Only the parameters this trial actually sampled (a conditional parameter is absent from
-        trials of other families).
+        the trials of other families).
     value
         The metric value, raw, in metric units.
     state
@@ -112,23 +118,23 @@ class TrialRecord:
 
 @dataclass(frozen=True)
 class Thresholds:
-    """When a parameter is judged worth tuning, safe to freeze, or without effect.
+    """When a parameter is worth tuning, safe to freeze, or without effect.
 
-    Verdicts, in order (``high`` is the upper end of the importance interval):
+    Verdicts, in order (``high`` is the upper end of the importance interval, ``measurable`` the
+    larger of ``tolerance`` and the group's noise floor, see the module docstring):
 
     1. the group has too few trials (see ``min_trials``) -> "keep tuning";
-    2. ``high < negligible_share`` and ``spread <= tolerance`` -> "no measurable effect";
+    2. ``high < negligible_share`` and ``spread <= measurable`` -> "no measurable effect";
     3. ``high < freeze_share`` and the best trial's value is also where the predicted score is
-       best (within ``tolerance``) -> "freeze at VALUE";
+       best (within ``measurable``) -> "freeze at VALUE";
     4. otherwise -> "keep tuning".
 
-    Shares and tolerances are rules of thumb (common practice, no source).
+    The default shares and tolerance are rules of thumb (common practice, no source).
 
     Parameters
     ----------
     negligible_share
-        Importance (share of score variance, or of PED-ANOVA importance) below which a
-        parameter's effect is negligible.
+        Importance below which a parameter's effect is negligible.
     freeze_share
         Importance below which a parameter with a clear best value may be frozen there.
     spread_tolerance
@@ -139,7 +145,7 @@ class Thresholds:
         Used when ``spread_tolerance`` is ``None``.
     min_trials, trials_per_param
         A group needs at least ``max(min_trials, trials_per_param x its parameter count)``
-        finished trials for a stable answer.
+        finished trials for a stable answer (common practice, no source).
     """
 
     negligible_share: float = 0.05
@@ -152,9 +158,9 @@ class Thresholds:
     def __post_init__(self) -> None:
         if not 0.0 <= self.negligible_share <= self.freeze_share <= 1.0:
             raise InputError(
-                f"importance thresholds must satisfy 0 <= negligible ({self.negligible_share}) "
-                f"<= freeze ({self.freeze_share}) <= 1",
-                "give shares between 0 and 1 with the negligible share no larger than the freeze share",
+                f"importance thresholds need 0 <= negligible share ({self.negligible_share}) "
+                f"<= freeze share ({self.freeze_share}) <= 1",
+                "give shares between 0 and 1, the negligible one no larger than the freeze one",
             )
         if self.spread_tolerance is not None and not (
             math.isfinite(self.spread_tolerance) and self.spread_tolerance >= 0
@@ -187,9 +193,9 @@ class ImportanceRow:
     family
         The family whose trials judged it, or ``None`` when judged over all trials.
     importance, low, high
-        Importance and its 80 % interval; ``None`` when there were too few trials to compute.
+        Importance and its 80 % interval; ``None`` when it could not be computed.
     best_value
-        The parameter's value in the best trial that has it (``None`` without a complete trial).
+        The parameter's value in the best complete trial that has it (``None`` if none).
     spread
         How far the predicted score moves across the parameter's values, in metric units.
     verdict
@@ -222,7 +228,7 @@ class ImportanceRow:
             "importance": self.importance,
             "low": self.low,
             "high": self.high,
-            "best_value": _plain(self.best_value),
+            "best_value": self.best_value.item() if isinstance(self.best_value, np.generic) else self.best_value,
             "spread": self.spread,
             "verdict": self.verdict,
             "action": self.action,
@@ -240,15 +246,17 @@ class GroupNote:
     family
         ``None`` for the group of all trials, else the family.
     params
-        Parameters in the group's model.
+        Parameters in the group's models.
     n_trials
-        Finished trials in the group that have all of ``params``.
+        Finished trials in the group that have every one of ``params``.
     trials_required
         ``max(min_trials, trials_per_param x len(params))``.
     trials_needed
         More trials this group needs for a stable answer (0 when it has enough).
     tolerance
         The spread tolerance used for the group, in metric units.
+    noise_floor
+        Largest spread shown by made-up parameters the score cannot depend on.
     message
         One line for a person.
     """
@@ -259,6 +267,7 @@ class GroupNote:
     trials_required: int
     trials_needed: int
     tolerance: float
+    noise_floor: float | None
     message: str
 
     def to_dict(self) -> dict[str, Any]:
@@ -270,6 +279,7 @@ class GroupNote:
             "trials_required": self.trials_required,
             "trials_needed": self.trials_needed,
             "tolerance": self.tolerance,
+            "noise_floor": self.noise_floor,
             "message": self.message,
         }
 
@@ -281,8 +291,8 @@ class ImportanceReport:
     Attributes
     ----------
     rows
-        One row per parameter: the all-trials group first, then each family, each sorted by
-        importance (largest first).
+        One row per parameter: the all-trials group first, then each family, each group
+        sorted by importance, largest first.
     groups
         One note per group of trials.
     method, direction, n_bootstrap
@@ -290,7 +300,7 @@ class ImportanceReport:
     tree_depth
         Depth of fANOVA's trees (``None`` for PED-ANOVA).
     trials_needed
-        About how many more trials, at the current mix of families, before every group has
+        About how many more trials, at the current mix of families, until every group has
         enough (0 when all do).
     """
 
@@ -300,7 +310,7 @@ class ImportanceReport:
     direction: Direction
     n_bootstrap: int
     tree_depth: int | None
-    trials_needed: int = field(default=0)
+    trials_needed: int
 
     @property
     def enough_trials(self) -> bool:
@@ -308,7 +318,7 @@ class ImportanceReport:
         return self.trials_needed == 0
 
     def row(self, param: str, family: str | None = None) -> ImportanceRow:
-        """The row of ``param`` (judged in ``family`` when it is given)."""
+        """The row of ``param`` (the one judged in ``family`` when that is given)."""
         for r in self.rows:
             if r.param == param and (family is None or r.family == family):
                 return r
@@ -337,7 +347,8 @@ def importance_table(
     method: Method = "fanova",
     family: str | None = None,
     thresholds: Thresholds = Thresholds(),
-    n_bootstrap: int = 24,
+    n_bootstrap: int = 16,
+    top_quantile: float = 0.1,
     include_pruned: bool = True,
     seed: int = 0,
 ) -> ImportanceReport:
@@ -356,19 +367,24 @@ def importance_table(
         PED-ANOVA).
     method
         ``"fanova"``: share of score variance explained by each parameter's main effect.
-        ``"ped-anova"``: share of how much each parameter matters for reaching the top 10 %.
+        ``"ped-anova"``: share of how much each parameter matters for reaching the top
+        ``top_quantile`` of scores.
     family
         Restrict the table to one family: its conditional parameters and the shared ``prep.*``
         parameters, all judged over that family's trials only.
     thresholds
         When to say "keep tuning", "freeze at VALUE" or "no measurable effect".
     n_bootstrap
-        Resamples behind the interval (for fANOVA also the number of trees, since each tree is
-        one resample). The default keeps 2,000 trials within about 10 s on 2 cores.
+        Resamples behind the interval; for fANOVA also the number of trees, since each tree is
+        one resample. The default keeps 2,000 trials under 10 s on 2 cores.
+    top_quantile
+        PED-ANOVA only: the share of best trials whose parameter values are compared with all
+        trials' (optuna's default, 0.1). Larger values ask about the broad shape of the
+        response, smaller ones about what it takes to reach the very best scores.
     include_pruned
         Whether pruned trials count (see ``trials``).
     seed
-        Seed for every random choice; same inputs and seed give the same table.
+        Seed for every random choice: the same inputs and seed give the same table.
 
     Returns
     -------
@@ -387,6 +403,8 @@ def importance_table(
         raise InputError(f"unknown importance method '{method}'", "use fanova or ped-anova")
     if n_bootstrap < 2:
         raise InputError(f"need at least 2 resamples for an interval, got {n_bootstrap}", "raise n_bootstrap")
+    if not 0.0 < top_quantile < 1.0:
+        raise InputError(f"top quantile must be between 0 and 1, got {top_quantile}", "try 0.1 or 0.25")
 
     states = ("complete", "pruned") if include_pruned else ("complete",)
     finished = [t for t in trials if t.state in states and math.isfinite(float(t.value))]
@@ -396,44 +414,42 @@ def importance_table(
         raise InputError(f"unknown family '{family}'", f"known families: {known}")
 
     groups = _make_groups(finished, distributions, families, family)
-    n_total = len(finished)
     depth = _choose_depth(groups, n_bootstrap) if method == "fanova" else None
-    rng = np.random.default_rng(seed)
-
+    settings = _Settings(direction, method, thresholds, n_bootstrap, depth, top_quantile)
+    seeds = np.random.default_rng(seed).integers(2**31 - 1, size=len(groups))
     rows: list[ImportanceRow] = []
     notes: list[GroupNote] = []
-    overall_needed = 0
-    for group in groups:
-        group_seed = int(rng.integers(2**31 - 1))
-        group_rows, note = _judge_group(
-            group, distributions, direction, method, thresholds, n_bootstrap, depth, group_seed
-        )
+    needed = 0
+    for group, group_seed in zip(groups, seeds):
+        group_rows, note = _judge_group(group, distributions, settings, int(group_seed))
         rows.extend(group_rows)
         notes.append(note)
         if note.trials_needed:
-            share = _group_share(group, n_total, len(families))
-            overall_needed = max(overall_needed, math.ceil(note.trials_needed / share))
-    return ImportanceReport(
-        rows=tuple(rows),
-        groups=tuple(notes),
-        method=method,
-        direction=direction,
-        n_bootstrap=n_bootstrap,
-        tree_depth=depth,
-        trials_needed=overall_needed,
-    )
+            share = _group_share(group, len(finished), len(families))
+            needed = max(needed, math.ceil(note.trials_needed / share))
+    return ImportanceReport(tuple(rows), tuple(notes), method, direction, n_bootstrap, depth, needed)
 
 
-# ---------------------------------------------------------------------------- grouping
+# ------------------------------------------------------------------------------- grouping
 
 
 @dataclass(frozen=True)
 class _Group:
     family: str | None
     fit_params: tuple[str, ...]  # inputs of the group's models
-    report_params: tuple[str, ...]  # rows the group produces
-    trials: tuple[TrialRecord, ...]  # trials of the group that have every fit param
-    n_candidates: int  # trials of the group before requiring every fit param
+    report_params: tuple[str, ...]  # the rows the group produces
+    trials: tuple[TrialRecord, ...]  # the group's trials that have every fit param
+    n_candidates: int  # the group's trials before requiring every fit param
+
+
+@dataclass(frozen=True)
+class _Settings:
+    direction: Direction
+    method: Method
+    thresholds: Thresholds
+    n_bootstrap: int
+    depth: int | None
+    top_quantile: float
 
 
 def _family_choices(distributions: Mapping[str, BaseDistribution]) -> tuple[Any, ...]:
@@ -442,7 +458,7 @@ def _family_choices(distributions: Mapping[str, BaseDistribution]) -> tuple[Any,
 
 
 def _owner(name: str, families: tuple[Any, ...]) -> str | None:
-    """The family a conditional parameter belongs to, or None for shared parameters."""
+    """The family a conditional parameter belongs to, or None for a shared parameter."""
     head, dot, _ = name.partition(".")
     return head if dot and head in families else None
 
@@ -462,19 +478,17 @@ def _make_groups(
         kept = tuple(t for t in pool if all(n in t.params for n in fit))
         return _Group(fam, tuple(fit), tuple(report), kept, len(pool))
 
-    def family_trials(fam: str) -> list[TrialRecord]:
+    def members(fam: Any) -> list[TrialRecord]:
         return [t for t in trials if t.params.get(FAMILY_PARAM) == fam]
 
     if only_family is not None:
-        own = [n for n in names if _owner(n, families) == only_family]
-        fit = own + context
-        return [build(only_family, fit, fit, family_trials(only_family))]
-
+        fit = [n for n in names if _owner(n, families) == only_family] + context
+        return [build(only_family, fit, fit, members(only_family))]
     groups = [build(None, shared, shared, trials)] if shared else []
     for fam in families:
         own = [n for n in names if _owner(n, families) == fam]
         if own:
-            groups.append(build(str(fam), own + context, own, family_trials(fam)))
+            groups.append(build(str(fam), own, own, members(fam)))
     return groups
 
 
@@ -487,31 +501,39 @@ def _group_share(group: _Group, n_total: int, n_families: int) -> float:
     return 1.0 / max(n_families, 1)
 
 
-# ---------------------------------------------------------------------------- encoding
+# ------------------------------------------------------------------------------- encoding
 
 
-def _check_value(name: str, dist: BaseDistribution, value: Any, number: int) -> None:
+@dataclass(frozen=True)
+class _Encoded:
+    names: tuple[str, ...]  # the group's non-constant parameters: the models' columns
+    unit: np.ndarray  # trials x names, on [0, 1] along each parameter's sampling scale
+    y: np.ndarray  # scores
+
+
+def _internal(name: str, dist: BaseDistribution, value: Any, number: int) -> float:
     try:
-        internal = dist.to_internal_repr(value)
+        internal = float(dist.to_internal_repr(value))
     except (ValueError, TypeError) as exc:
         raise InputError(
             f"trial {number}: {name}={value!r} is not in its search space",
             "pass the distributions the study was searched with",
         ) from exc
     if isinstance(dist, (FloatDistribution, IntDistribution)):
-        span = dist.high - dist.low
-        if not dist.low - 1e-9 * span <= internal <= dist.high + 1e-9 * span:
+        slack = 1e-9 * (dist.high - dist.low)
+        if not dist.low - slack <= internal <= dist.high + slack:
             raise InputError(
                 f"trial {number}: {name}={value!r} is outside [{dist.low}, {dist.high}]",
                 "pass the distributions the study was searched with",
             )
+    return internal
 
 
 def _unit(dist: BaseDistribution, values: np.ndarray) -> np.ndarray:
-    """Map internal values to [0, 1] on the sampling scale, each value its own equal cell.
+    """Internal values mapped to [0, 1] along the sampling scale.
 
-    Log-scaled parameters are mapped on the log scale, so a uniform measure on [0, 1] is the one
-    the sampler searches; categoricals and stepped numbers get equal-width cells per value.
+    Log-scaled parameters map on the log scale, so a uniform measure on [0, 1] is the one the
+    sampler searches; categorical choices and stepped numbers get equal-width cells.
     """
     if isinstance(dist, CategoricalDistribution):
         return (values + 0.5) / len(dist.choices)
@@ -531,245 +553,228 @@ def _snap(u: np.ndarray, bins: int) -> np.ndarray:
     return (np.minimum(np.floor(u * bins), bins - 1) + 0.5) / bins
 
 
-@dataclass(frozen=True)
-class _Encoded:
-    names: tuple[str, ...]  # non-constant fit params, the model's columns
-    internal: np.ndarray  # trials x names, optuna's internal representation
-    unit: np.ndarray  # trials x names, on [0, 1] (sampling scale)
-    y: np.ndarray  # scores
-
-
 def _encode(group: _Group, distributions: Mapping[str, BaseDistribution]) -> _Encoded:
     names = tuple(n for n in group.fit_params if not distributions[n].single())
-    n = len(group.trials)
-    internal = np.empty((n, len(names)))
+    unit = np.empty((len(group.trials), len(names)))
     for j, name in enumerate(names):
         dist = distributions[name]
-        for i, t in enumerate(group.trials):
-            _check_value(name, dist, t.params[name], t.number)
-            internal[i, j] = dist.to_internal_repr(t.params[name])
-    unit = np.empty_like(internal)
-    for j, name in enumerate(names):
-        unit[:, j] = _unit(distributions[name], internal[:, j])
-    y = np.array([float(t.value) for t in group.trials])
-    return _Encoded(names, internal, unit, y)
+        internal = np.array([_internal(name, dist, t.params[name], t.number) for t in group.trials])
+        unit[:, j] = _unit(dist, internal)
+    return _Encoded(names, unit, np.array([float(t.value) for t in group.trials]))
 
 
-# ---------------------------------------------------------------------------- importance
+# ------------------------------------------------------------------------------- importance
+
+
+@contextmanager
+def _quiet_optuna() -> Iterator[None]:
+    """Drop optuna's "study created" chatter and warnings for our throw-away studies only."""
+    logger = logging.getLogger("optuna.storages._in_memory")
+    chatter = logging.Filter("no-record-passes")  # a name no record has: drops everything
+    logger.addFilter(chatter)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            yield
+    finally:
+        logger.removeFilter(chatter)
 
 
 def _choose_depth(groups: list[_Group], n_bootstrap: int) -> int:
-    """Deepest tree whose estimated total fANOVA cost fits ``_WORK_BUDGET``.
+    """Deepest fANOVA tree whose estimated total time fits ``_FANOVA_SECONDS``.
 
-    optuna walks a tree once per split point of the parameter being judged, visiting about as
-    many nodes as the tree has leaves; a tree of depth d has at most ``min(2**d, n)`` leaves and
-    a snapped parameter at most ``_FANOVA_BINS`` split points.
+    A tree on a bootstrap resample of n trials has at most ``min(2**depth, 0.63 n)`` leaves
+    (0.63: the share of distinct trials in a bootstrap resample).
     """
     for depth in range(_MAX_DEPTH, _MIN_DEPTH - 1, -1):
-        work = sum(
-            n_bootstrap * len(g.fit_params) * min(2**depth, len(g.trials)) * _FANOVA_BINS
+        seconds = sum(
+            n_bootstrap
+            * len(g.fit_params)
+            * (_CALL_SECONDS * len(g.trials) + _LEAF_SECONDS * min(2**depth, math.ceil(0.63 * len(g.trials))))
             for g in groups
         )
-        if work <= _WORK_BUDGET:
+        if seconds <= _FANOVA_SECONDS:
             return depth
     return _MIN_DEPTH
 
 
 def _fanova_replicates(enc: _Encoded, n_bootstrap: int, depth: int, seed: int) -> np.ndarray:
-    """Importance of each column from ``n_bootstrap`` one-tree forests (resamples x columns)."""
+    """Importance of each column by ``n_bootstrap`` one-tree forests (resamples x columns).
+
+    Every column enters as a number on [0, 1] snapped to ``_FANOVA_BINS`` cells; categorical
+    choices become equal cells, so each choice weighs the same in fANOVA's uniform marginal
+    (optuna's one-hot coding would also weigh impossible combinations and cost 2**k walks).
+    """
     import optuna
     from optuna.importance import FanovaImportanceEvaluator
 
-    dist = FloatDistribution(0.0, 1.0)
-    dists = {name: dist for name in enc.names}
+    unit = FloatDistribution(0.0, 1.0)
+    dists = {name: unit for name in enc.names}
     x = _snap(enc.unit, _FANOVA_BINS)
-    study = optuna.create_study(direction="minimize")
-    study.add_trials(
-        [
-            optuna.trial.create_trial(
-                params={name: float(x[i, j]) for j, name in enumerate(enc.names)},
-                distributions=dists,
-                value=float(enc.y[i]),
-            )
-            for i in range(len(enc.y))
-        ]
-    )
-    seeds = np.random.default_rng(seed).integers(2**31 - 1, size=n_bootstrap)
     out = np.zeros((n_bootstrap, len(enc.names)))
-    for b, tree_seed in enumerate(seeds):
-        evaluator = FanovaImportanceEvaluator(n_trees=1, max_depth=depth, seed=int(tree_seed))
-        try:
-            result = evaluator.evaluate(study)
-        except RuntimeError:  # the tree saw no variance at all: nothing explains anything
-            continue
-        out[b] = [result[name] for name in enc.names]
+    with _quiet_optuna():
+        study = optuna.create_study(direction="minimize")
+        study.add_trials(
+            [
+                optuna.trial.create_trial(params=dict(zip(enc.names, map(float, row))), distributions=dists, value=float(v))
+                for row, v in zip(x, enc.y)
+            ]
+        )
+        for b, tree_seed in enumerate(np.random.default_rng(seed).integers(2**31 - 1, size=n_bootstrap)):
+            evaluator = FanovaImportanceEvaluator(n_trees=1, max_depth=depth, seed=int(tree_seed))
+            try:
+                result = evaluator.evaluate(study)
+            except RuntimeError:  # this resample's tree saw no variance: nothing explains anything
+                continue
+            out[b] = [result[name] for name in enc.names]
     return out
 
 
 def _ped_anova_replicates(
-    enc: _Encoded,
     group: _Group,
+    enc: _Encoded,
     distributions: Mapping[str, BaseDistribution],
-    direction: Direction,
-    n_bootstrap: int,
+    settings: _Settings,
     seed: int,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """PED-ANOVA shares on all trials and on ``n_bootstrap`` random halves of them."""
+    """PED-ANOVA shares on all trials, and on ``n_bootstrap`` random halves of them."""
     import optuna
     from optuna.importance import PedAnovaImportanceEvaluator
 
     dists = {name: distributions[name] for name in enc.names}
-    sign = 1.0 if direction == "minimize" else -1.0
-    study = optuna.create_study(direction="minimize")
-    study.add_trials(
-        [
-            optuna.trial.create_trial(
-                params={name: t.params[name] for name in enc.names},
-                distributions=dists,
-                value=sign * float(t.value),
-                user_attrs={"row": i},
-            )
-            for i, t in enumerate(group.trials)
-        ]
-    )
-    n = len(enc.y)
-    evaluator = PedAnovaImportanceEvaluator(target_quantile=_PED_TARGET_QUANTILE)
-
-    def shares(keep: np.ndarray | None) -> np.ndarray:
-        def target(trial: Any) -> float:
-            row = trial.user_attrs["row"]
-            return float(trial.value) if keep is None or keep[row] else math.nan
-
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            result = evaluator.evaluate(study, params=list(enc.names), target=target)
-        raw = np.array([result[name] for name in enc.names])
-        total = raw.sum()
-        return raw / total if total > 0 else raw
-
+    sign = 1.0 if settings.direction == "minimize" else -1.0  # the evaluator's target is minimised
+    n = len(group.trials)
+    evaluator = PedAnovaImportanceEvaluator(target_quantile=settings.top_quantile)
     rng = np.random.default_rng(seed)
-    point = shares(None)
-    halves = np.empty((n_bootstrap, len(enc.names)))
-    for b in range(n_bootstrap):
-        keep = np.zeros(n, dtype=bool)
-        keep[rng.choice(n, size=n // 2, replace=False)] = True
-        halves[b] = shares(keep)
+    with _quiet_optuna():
+        study = optuna.create_study(direction="minimize")
+        study.add_trials(
+            [
+                optuna.trial.create_trial(
+                    params={name: t.params[name] for name in enc.names}, distributions=dists, value=sign * float(t.value)
+                )
+                for t in group.trials
+            ]
+        )
+
+        def shares(keep: np.ndarray) -> np.ndarray:
+            # A non-finite target leaves a trial out, so one study serves every half.
+            result = evaluator.evaluate(
+                study, params=list(enc.names), target=lambda t: float(t.value) if keep[t.number] else math.nan
+            )
+            raw = np.array([result[name] for name in enc.names])
+            return raw / raw.sum() if raw.sum() > 0 else raw
+
+        point = shares(np.ones(n, dtype=bool))
+        halves = np.empty((settings.n_bootstrap, len(enc.names)))
+        for b in range(settings.n_bootstrap):
+            keep = np.zeros(n, dtype=bool)
+            keep[rng.choice(n, size=n // 2, replace=False)] = True
+            halves[b] = shares(keep)
     return point, halves
 
 
-# ---------------------------------------------------------------------------- spread
+# ------------------------------------------------------------------------------- spread
 
 
 @dataclass(frozen=True)
 class _Marginal:
-    grid: np.ndarray  # unit-scale positions the score was predicted at
+    grid: np.ndarray  # positions on [0, 1] where the score was predicted
     score: np.ndarray  # mean predicted score at each position
 
 
-def _marginals(enc: _Encoded, distributions: Mapping[str, BaseDistribution], seed: int) -> list[_Marginal]:
-    """Partial dependence of the predicted score on each column, on a binned grid."""
-    from sklearn.ensemble import RandomForestRegressor
-
-    n = len(enc.y)
-    forest = RandomForestRegressor(
-        n_estimators=_SPREAD_TREES,
-        min_samples_leaf=max(3, n // 100),
-        random_state=seed,
-    )
-    forest.fit(enc.unit, enc.y)
-    rng = np.random.default_rng(seed)
-    background = enc.unit if n <= _SPREAD_BACKGROUND else enc.unit[rng.choice(n, _SPREAD_BACKGROUND, replace=False)]
-    out = []
-    for j, name in enumerate(enc.names):
-        grid = _grid(distributions[name], enc.unit[:, j])
-        batch = np.repeat(background[None, :, :], len(grid), axis=0)
-        batch[:, :, j] = grid[:, None]
-        pred = forest.predict(batch.reshape(-1, batch.shape[-1])).reshape(len(grid), -1)
-        out.append(_Marginal(grid, pred.mean(axis=1)))
-    return out
-
-
-def _grid(dist: BaseDistribution, unit: np.ndarray) -> np.ndarray:
-    """Observed values, binned to ``_SPREAD_BINS`` equal-width bins when there are more."""
+def _grid(dist: BaseDistribution | None, unit: np.ndarray) -> np.ndarray:
+    """Observed positions, binned to ``_SPREAD_BINS`` equal-width bins when there are more."""
     values = np.unique(unit)
     if isinstance(dist, CategoricalDistribution) or len(values) <= _SPREAD_BINS:
         return values
     return np.unique(_snap(values, _SPREAD_BINS))
 
 
-def _position(grid: np.ndarray, unit_value: float) -> int:
-    return int(np.argmin(np.abs(grid - unit_value)))
+def _marginals(
+    enc: _Encoded, distributions: Mapping[str, BaseDistribution], seed: int
+) -> tuple[list[_Marginal], float]:
+    """Partial dependence of the predicted score on each column, and the probes' noise floor."""
+    from sklearn.ensemble import RandomForestRegressor
+
+    rng = np.random.default_rng(seed)
+    n, p = enc.unit.shape
+    x = np.hstack([enc.unit, rng.random((n, _N_PROBES))])
+    forest = RandomForestRegressor(
+        n_estimators=_SPREAD_TREES, min_samples_leaf=max(3, n // 100), random_state=int(rng.integers(2**31 - 1))
+    )
+    forest.fit(x, enc.y)
+    background = x if n <= _SPREAD_BACKGROUND else x[rng.choice(n, _SPREAD_BACKGROUND, replace=False)]
+    grids = [_grid(distributions[enc.names[j]] if j < p else None, x[:, j]) for j in range(p + _N_PROBES)]
+    batches = []
+    for j, grid in enumerate(grids):  # every column at every grid value, predicted in one call
+        batch = np.repeat(background[None, :, :], len(grid), axis=0)
+        batch[:, :, j] = grid[:, None]
+        batches.append(batch.reshape(-1, x.shape[1]))
+    pred = np.split(forest.predict(np.vstack(batches)), np.cumsum([len(b) for b in batches])[:-1])
+    out = [_Marginal(grid, y.reshape(len(grid), -1).mean(axis=1)) for grid, y in zip(grids, pred)]
+    floor = max(float(np.ptp(m.score)) for m in out[p:])
+    return out[:p], floor
 
 
-# ---------------------------------------------------------------------------- verdicts
+# ------------------------------------------------------------------------------- verdicts
 
 
 def _judge_group(
-    group: _Group,
-    distributions: Mapping[str, BaseDistribution],
-    direction: Direction,
-    method: Method,
-    thresholds: Thresholds,
-    n_bootstrap: int,
-    depth: int | None,
-    seed: int,
+    group: _Group, distributions: Mapping[str, BaseDistribution], settings: _Settings, seed: int
 ) -> tuple[list[ImportanceRow], GroupNote]:
+    th = settings.thresholds
     n = len(group.trials)
-    required = max(thresholds.min_trials, thresholds.trials_per_param * len(group.fit_params))
+    required = max(th.min_trials, th.trials_per_param * len(group.fit_params))
     needed = max(0, required - n)
-    scores = np.array([float(t.value) for t in group.trials])
-    tolerance = _tolerance(thresholds, scores)
-    where = "all trials" if group.family is None else f"family {group.family}"
-    if needed:
-        message = (
-            f"{where}: {n} finished trials, {required} needed for a stable answer "
-            f"({len(group.fit_params)} parameters); run {needed} more in this group"
-        )
-    else:
-        message = f"{where}: {n} finished trials, enough for {len(group.fit_params)} parameters"
-    if n < group.n_candidates:
-        message += f"; {group.n_candidates - n} trials lacked one of the parameters and were left out"
-    note = GroupNote(group.family, group.fit_params, n, required, needed, tolerance, message)
-
     enc = _encode(group, distributions)
-    stats: dict[str, tuple[float, float, float]] = {}
-    spreads: dict[str, float] = {}
-    marg: dict[str, _Marginal] = {}
-    if n >= 3 and enc.names and np.ptp(enc.y) > 0:
-        rng = np.random.default_rng(seed)
-        imp_seed, spread_seed = (int(s) for s in rng.integers(2**31 - 1, size=2))
-        if method == "fanova":
-            assert depth is not None
-            reps = _fanova_replicates(enc, n_bootstrap, depth, imp_seed)
+    tolerance = _tolerance(th, enc.y)
+
+    stats: dict[str, tuple[float, float, float]] = {n_: (0.0, 0.0, 0.0) for n_ in group.report_params}
+    spreads: dict[str, float] = {n_: 0.0 for n_ in group.report_params}
+    marginals: dict[str, _Marginal] = {}
+    floor: float | None = None
+    if n < 3:  # nothing to compute on
+        stats, spreads = {}, {}
+    elif enc.names and np.ptp(enc.y) > 0:  # else every score is equal: nothing explains anything
+        imp_seed, spread_seed = (int(s) for s in np.random.default_rng(seed).integers(2**31 - 1, size=2))
+        if settings.method == "fanova":
+            assert settings.depth is not None
+            reps = _fanova_replicates(enc, settings.n_bootstrap, settings.depth, imp_seed)
             point = reps.mean(axis=0)
         else:
-            point, reps = _ped_anova_replicates(enc, group, distributions, direction, n_bootstrap, imp_seed)
+            point, reps = _ped_anova_replicates(group, enc, distributions, settings, imp_seed)
         low = np.minimum(np.percentile(reps, 10, axis=0), point)
         high = np.maximum(np.percentile(reps, 90, axis=0), point)
+        curves, floor = _marginals(enc, distributions, spread_seed)
         for j, name in enumerate(enc.names):
             stats[name] = (float(point[j]), float(low[j]), float(high[j]))
-        for name, m in zip(enc.names, _marginals(enc, distributions, spread_seed)):
-            marg[name] = m
-            spreads[name] = float(np.ptp(m.score))
-    elif n >= 1:  # every score equal, or nothing varies: no parameter explains anything
-        for name in enc.names:
-            stats[name] = (0.0, 0.0, 0.0)
-            spreads[name] = 0.0
+            spreads[name] = float(np.ptp(curves[j].score))
+            marginals[name] = curves[j]
 
-    best = _best_trial(group.trials, direction)
+    measurable = max(tolerance, floor or 0.0)
+    best = _best_trial(group.trials, settings.direction)
     rows = []
     for name in group.report_params:
-        dist = distributions[name]
-        if dist.single():  # a one-value range: already frozen
-            stats.setdefault(name, (0.0, 0.0, 0.0))
-            spreads.setdefault(name, 0.0)
         best_value = best.params[name] if best is not None else None
-        clear = _best_is_clear(dist, marg.get(name), best_value, direction, tolerance)
-        rows.append(
-            _row(name, group, stats.get(name), spreads.get(name), best_value, clear, thresholds, tolerance, needed)
-        )
+        clear = _best_is_clear(distributions[name], marginals.get(name), best_value, settings.direction, measurable)
+        rows.append(_row(name, group, stats.get(name), spreads.get(name), best_value, clear, th, measurable, needed))
     rows.sort(key=lambda r: -1.0 if r.importance is None else r.importance, reverse=True)
-    return rows, note
+    return rows, GroupNote(
+        group.family, group.fit_params, n, required, needed, tolerance, floor, _group_message(group, required, needed)
+    )
+
+
+def _group_message(group: _Group, required: int, needed: int) -> str:
+    where = "all trials" if group.family is None else f"family {group.family}"
+    n, k = len(group.trials), len(group.fit_params)
+    if needed:
+        text = f"{where}: {n} finished trials, {required} needed for a stable answer on {k} parameters; run {needed} more"
+    else:
+        text = f"{where}: {n} finished trials, enough for {k} parameters"
+    if n < group.n_candidates:
+        text += f" ({group.n_candidates - n} trials lacked one of the parameters and were left out)"
+    return text
 
 
 def _tolerance(thresholds: Thresholds, scores: np.ndarray) -> float:
@@ -790,17 +795,17 @@ def _best_trial(trials: Sequence[TrialRecord], direction: Direction) -> TrialRec
 
 
 def _best_is_clear(
-    dist: BaseDistribution, marginal: _Marginal | None, best_value: Any, direction: Direction, tolerance: float
+    dist: BaseDistribution, marginal: _Marginal | None, best_value: Any, direction: Direction, measurable: float
 ) -> bool:
     """Whether the best trial's value is also where the predicted score is best."""
     if best_value is None:
         return False
-    if marginal is None:  # constant parameter
+    if marginal is None:  # a constant parameter, or a group whose scores are all equal
         return True
-    unit_value = float(_unit(dist, np.array([dist.to_internal_repr(best_value)]))[0])
-    at_best = marginal.score[_position(marginal.grid, unit_value)]
+    position = float(_unit(dist, np.array([dist.to_internal_repr(best_value)]))[0])
+    at_best = marginal.score[int(np.argmin(np.abs(marginal.grid - position)))]
     optimum = marginal.score.max() if direction == "maximize" else marginal.score.min()
-    return bool(abs(optimum - at_best) <= tolerance)
+    return bool(abs(optimum - at_best) <= measurable)
 
 
 def _row(
@@ -810,63 +815,36 @@ def _row(
     spread: float | None,
     best_value: Any,
     clear_best: bool,
-    thresholds: Thresholds,
-    tolerance: float,
+    th: Thresholds,
+    measurable: float,
     needed: int,
 ) -> ImportanceRow:
     importance, low, high = stat if stat is not None else (None, None, None)
     action: Action = "keep tuning"
     verdict = "keep tuning"
     if needed:
-        reason = f"too few trials to judge: {needed} more needed"
+        reason = f"too few trials to judge: {needed} more needed in this group"
     elif importance is None or high is None or spread is None:
-        reason = "importance could not be computed"
-    elif high < thresholds.negligible_share and spread <= tolerance:
-        action, verdict = "no measurable effect", "no measurable effect"
-        reason = (
-            f"importance at most {high:.3f} < {thresholds.negligible_share:g} and the score moves "
-            f"{spread:.3g} <= {tolerance:.3g}"
-        )
-    elif high < thresholds.freeze_share and clear_best:
+        reason = "too few trials to compute an importance"
+    elif high < th.negligible_share and spread <= measurable:
+        action = verdict = "no measurable effect"
+        reason = f"importance at most {high:.3f} < {th.negligible_share:g}; score moves {spread:.3g} <= {measurable:.3g}"
+    elif high < th.freeze_share and clear_best:
         action, verdict = "freeze", f"freeze at {_format_value(best_value)}"
-        reason = (
-            f"importance at most {high:.3f} < {thresholds.freeze_share:g} and the best trial's value "
-            "is where the predicted score is best"
-        )
-    elif high < thresholds.freeze_share:
-        reason = f"importance at most {high:.3f} but no clear best value yet"
+        reason = f"importance at most {high:.3f} < {th.freeze_share:g}; the best trial's value is where the predicted score is best"
+    elif high < th.freeze_share:
+        reason = f"importance at most {high:.3f}, but the best value is not clear yet; score moves {spread:.3g}"
     else:
-        reason = f"importance up to {high:.3f} >= {thresholds.freeze_share:g}; the score moves {spread:.3g}"
-    return ImportanceRow(
-        param=name,
-        family=group.family,
-        importance=importance,
-        low=low,
-        high=high,
-        best_value=best_value,
-        spread=spread,
-        verdict=verdict,
-        action=action,
-        reason=reason,
-        n_trials=len(group.trials),
-    )
+        reason = f"importance up to {high:.3f} >= {th.freeze_share:g}; score moves {spread:.3g}"
+    return ImportanceRow(name, group.family, importance, low, high, best_value, spread, verdict, action, reason, len(group.trials))
 
 
 def _format_value(value: Any) -> str:
-    if isinstance(value, float):
-        return f"{value:.3g}"
-    return str(value)
-
-
-def _plain(value: Any) -> Any:
-    if isinstance(value, np.generic):
-        return value.item()
-    return value
+    return f"{value:.3g}" if isinstance(value, float) else str(value)
 
 
 __all__ = [
     "FAMILY_PARAM",
-    "SHARED_PREFIX",
     "GroupNote",
     "ImportanceReport",
     "ImportanceRow",

@@ -84,13 +84,43 @@ def _svm(p: Mapping[str, Any], task: str, seed: int, threads: int) -> Any:
                class_weight=p.get("class_weight"), random_state=seed)
 
 
+# The MLP ladder (common practice, no source): rung -> (hidden units, hidden layers, dropout),
+# each a (low, high) range.  A config that names ``rung`` places itself inside the rung's ranges
+# with ``rung_width``, ``rung_depth`` and ``rung_dropout`` in [0, 1] (width on a log scale), so one
+# search space holds networks whose sizes differ twentyfold without mixing their ranges.
+MLP_RUNGS: dict[str, tuple[tuple[int, int], tuple[int, int], tuple[float, float]]] = {
+    "narrow": ((100, 500), (1, 1), (0.0, 0.2)),
+    "wide": ((1200, 1500), (2, 3), (0.4, 0.5)),
+    "very_wide": ((8000, 10000), (1, 1), (0.6, 0.8)),
+}
+
+
+def mlp_rung_params(p: Mapping[str, Any]) -> dict[str, Any]:
+    """Hidden width, layer count and dropout for a config that names an MLP ``rung`` (else empty)."""
+    if "rung" not in p:
+        return {}
+    if p["rung"] not in MLP_RUNGS:
+        raise InputError(f"unknown MLP rung '{p['rung']}'", f"rungs are: {', '.join(MLP_RUNGS)}")
+    (w_lo, w_hi), (l_lo, l_hi), (d_lo, d_hi) = MLP_RUNGS[p["rung"]]
+
+    def at(key: str) -> float:
+        return min(1.0, max(0.0, float(p.get(key, 0.5))))
+
+    return {
+        "hidden_width": int(round(w_lo * (w_hi / w_lo) ** at("rung_width"))),
+        "n_layers": int(round(l_lo + (l_hi - l_lo) * at("rung_depth"))),
+        "dropout": float(d_lo + (d_hi - d_lo) * at("rung_dropout")),
+    }
+
+
 def _mlp(p: Mapping[str, Any], task: str, seed: int, threads: int) -> Any:
     from tunelab.models import _mlp as mlp  # torch is imported only when an MLP is built
 
     cls = mlp.TorchMLPRegressor if task == "regression" else mlp.TorchMLPClassifier
-    keys = ("hidden_width", "n_layers", "dropout", "learning_rate", "weight_decay", "batch_size",
+    keys = ("hidden_width", "n_layers", "dropout", "batch_norm", "learning_rate", "weight_decay", "batch_size",
             "optimizer", "max_epochs", "patience")
     kwargs = {k: p[k] for k in keys if k in p}
+    kwargs.update(mlp_rung_params(p))
     return cls(random_state=seed, n_threads=threads, **kwargs)
 
 

@@ -147,9 +147,17 @@ def build_preprocessor(
     return ColumnTransformer(parts, remainder="drop", sparse_threshold=sparse_threshold)
 
 
+def signed_log1p(values: Any) -> Any:
+    """``sign(x) * log(1 + |x|)``: tames long tails, keeps zero and sign, defined for every real."""
+    values = np.asarray(values, dtype=float)
+    return np.sign(values) * np.log1p(np.abs(values))
+
+
 def _numeric_scaler(kind: str, seed: int) -> Any:
     if kind == "quantile":
         return QuantileTransformer(output_distribution="normal", n_quantiles=200, random_state=seed)
+    if kind == "log":
+        return make_pipeline(FunctionTransformer(signed_log1p), StandardScaler())
     return StandardScaler()
 
 
