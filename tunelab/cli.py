@@ -79,6 +79,13 @@ def _search_output(result: Any, json_out: bool) -> int:
     return s.exit_code
 
 
+def _check_study_exists(study: str, store: str | None) -> None:
+    from tunelab.store import Store
+
+    with Store.open(store) as st:
+        st.get_study(study)
+
+
 def _progress_hooks(metric_holder: dict[str, Any], quiet: bool) -> tuple[Any, Any, Any]:
     from tunelab import _render as r
 
@@ -179,6 +186,7 @@ def resume(
 
     Trials that were running when the process died are recorded as interrupted and run again first.
     """
+    _check_study_exists(study, store)  # fail fast, before the heavy imports
     from tunelab.engine import parse_duration
     from tunelab.ops import resume_study
 
@@ -188,6 +196,33 @@ def resume(
         result = resume_study(study, store=store, extend_seconds=seconds, extend_trials=more_trials, data=data,
                               accept_changed_data=accept_changed_data, announce=announce, on_progress=progress,
                               jobs=jobs, settings=_settings(ctx))
+    finally:
+        close()
+    raise typer.Exit(_search_output(result, json_out))
+
+
+@app.command()
+def worker(
+    ctx: typer.Context,
+    study: str = typer.Argument(..., help="Name of a study to join (it must exist in the store)."),
+    data: Optional[Path] = typer.Option(None, "--data", help="Where the study's data file is on this machine."),
+    jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes to start on this machine."),
+    store: Optional[str] = StoreOpt,
+    json_out: bool = JsonOpt,
+    quiet: bool = QuietOpt,
+) -> None:
+    """Join a study from this machine and work on it until its budget is spent.
+
+    Point every machine at the same database, e.g.
+    tunelab worker sales --store postgresql://tuner@db-host/studies --jobs 4
+    """
+    _check_study_exists(study, store)  # fail fast, before the heavy imports
+    from tunelab.ops import resume_study
+
+    announce, progress, close = _progress_hooks({}, quiet or json_out)
+    try:
+        result = resume_study(study, store=store, data=data, announce=announce, on_progress=progress, jobs=jobs,
+                              settings=_settings(ctx), kind="worker")
     finally:
         close()
     raise typer.Exit(_search_output(result, json_out))

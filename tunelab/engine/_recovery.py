@@ -25,21 +25,34 @@ class Recovery:
     requeued: list[int] = field(default_factory=list)
 
 
-def recover(store: Store, record: StudyRecord, study: Any, *, now: float, stale_after: float, phase: int) -> Recovery:
-    """Mark trials of dead launches interrupted and queue their configs (current phase) to run first."""
+def recover(store: Store, record: StudyRecord, study: Any, *, now: float, stale_after: float, phase: int,
+            own_launch: int | None = None) -> Recovery:
+    """Mark trials of dead launches interrupted and queue their configs (current phase) to run first.
+
+    Safe with several workers at once: a dead launch is claimed by one worker (a conditional
+    update), and each interrupted config is re-queued once (a unique row in ``tl_requeue``).
+    """
     report = Recovery(crashed_launches=store.mark_dead_launches(record.id, now=now, stale_after=stale_after))
     live = {ln.id for ln in store.launches(record.id) if ln.state == "running"}
+    if own_launch is not None:
+        live.add(own_launch)
     storage = study._storage
     for trial in study.get_trials(deepcopy=False, states=(TrialState.RUNNING,)):
-        if trial.user_attrs.get(LAUNCH_ATTR) not in live:
-            storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, INTERRUPTED)
-            storage.set_trial_state_values(trial._trial_id, TrialState.FAIL)
+        owner = trial.user_attrs.get(LAUNCH_ATTR)
+        orphan = owner is None and trial.datetime_start is not None and \
+            now - trial.datetime_start.timestamp() > stale_after
+        if owner in report.crashed_launches or (owner is not None and owner not in live) or orphan:
+            try:
+                storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, INTERRUPTED)
+                storage.set_trial_state_values(trial._trial_id, TrialState.FAIL)
+            except RuntimeError:  # finished meanwhile by its owner
+                continue
             report.interrupted.append(trial.number)
-    trials = study.get_trials(deepcopy=False)
-    retried = {t.user_attrs.get(RETRY_ATTR) for t in trials}
-    for trial in trials:
-        if (trial.state == TrialState.FAIL and trial.user_attrs.get(STATE_ATTR) == INTERRUPTED
-                and trial.number not in retried and trial.user_attrs.get(PHASE_ATTR, 1) == phase):
+    done = store.requeued_trials(record.id)
+    for trial in study.get_trials(deepcopy=False, states=(TrialState.FAIL,)):
+        if (trial.user_attrs.get(STATE_ATTR) == INTERRUPTED and trial.number not in done
+                and trial.user_attrs.get(PHASE_ATTR, 1) == phase
+                and store.claim_requeue(record.id, trial.number, now=now)):
             study.enqueue_trial(trial.params, user_attrs={RETRY_ATTR: trial.number})
             report.requeued.append(trial.number)
     return report

@@ -22,7 +22,6 @@ from tunelab.engine._recovery import (
     PHASE_ATTR,
     STATE_ATTR,
     recover,
-    trial_state,
 )
 from tunelab.engine._runner import Limits, Outcome
 from tunelab.space import SpaceSpec
@@ -124,9 +123,12 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
     """Run trials until the budget, the trial cap, or a stop request ends the launch."""
     settings = settings or SearchSettings()
     started = settings.started if settings.started is not None else clock.now()
-    fixes = recover(store, record, study, now=started, stale_after=settings.stale_after, phase=settings.phase)
-    wall_spent, cpu_spent = store.spent(record.id)
-    done = _finished_count(study)
+    fixes = recover(store, record, study, now=clock.now(), stale_after=settings.stale_after, phase=settings.phase)
+    now = clock.now()
+    # Wall time is the union of launch intervals: this launch counts from its process start, and
+    # time other live launches already cover is not counted twice (a joining worker gets their deadline).
+    wall_spent, cpu_spent = store.spent(record.id, extra=(started, now))
+    done = store.count_finished(record.name)
     left_wall, left_cpu, left_trials = remaining(budget, Spent(wall_spent, cpu_spent, done))
     summary = SearchSummary(None, "", 0.0, recovered=fixes.interrupted, requeued=fixes.requeued)
     if left_wall == 0 or left_cpu == 0 or left_trials == 0:
@@ -135,16 +137,24 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
         return summary
     launch_id = store.start_launch(record.id, kind=settings.kind, now=started)
     summary.launch_id = launch_id
-    deadline = None if left_wall is None else started + left_wall
+    deadline = None if left_wall is None else now + left_wall
     heartbeat = _Heartbeat(store, launch_id, clock, started, settings.heartbeat_interval, runner)
     durations: dict[str, list[float]] = _past_durations(study)
     counts = {"complete": 0, "pruned": 0, "failed": 0, "interrupted": 0}
     state = "finished"
     trial = None
+    next_recovery = clock.now() + settings.stale_after / 3
     try:
         while True:
-            reason = _stop_reason(clock.now(), deadline, left_cpu, heartbeat, left_trials, sum(
-                counts[k] for k in ("complete", "pruned", "failed")), durations)
+            if clock.now() >= next_recovery:  # another worker may have died: re-queue its trials
+                found = recover(store, record, study, now=clock.now(), stale_after=settings.stale_after,
+                                phase=settings.phase, own_launch=launch_id)
+                summary.recovered += found.interrupted
+                summary.requeued += found.requeued
+                next_recovery = clock.now() + settings.stale_after / 3
+            finished_total = store.count_finished(record.name) if budget.trials is not None else 0
+            reason = _stop_reason(clock.now(), deadline, left_cpu, heartbeat, budget.trials, finished_total,
+                                  durations)
             if reason:
                 summary.stop_reason = reason
                 break
@@ -237,8 +247,8 @@ def _mark_interrupted(study: Any, trial: Any) -> bool:
 
 
 def _stop_reason(now: float, deadline: float | None, left_cpu: float | None, heartbeat: _Heartbeat,
-                 left_trials: int | None, done_here: int, durations: dict[str, list[float]]) -> str:
-    if left_trials is not None and done_here >= left_trials:
+                 trials_cap: int | None, finished_total: int, durations: dict[str, list[float]]) -> str:
+    if trials_cap is not None and finished_total >= trials_cap:
         return "trial count reached"
     if left_cpu is not None and heartbeat.cpu_seconds() >= left_cpu:
         return "CPU budget spent"
@@ -263,10 +273,6 @@ def _past_durations(study: Any) -> dict[str, list[float]]:
         if t.duration is not None:
             out.setdefault(str(t.params.get("family", "")), []).append(t.duration.total_seconds())
     return out
-
-
-def _finished_count(study: Any) -> int:
-    return sum(1 for t in study.get_trials(deepcopy=False) if trial_state(t) in ("complete", "pruned", "failed"))
 
 
 def _progress(study: Any, started: float, box: float | None, counts: dict[str, int], kind: str,

@@ -1,10 +1,19 @@
 """One function per shell verb; the CLI parses, calls one of these, and renders the result."""
 
-from tunelab.ops._run import RunRequest, RunResult, StudyStart, resume_study, run_objective_study, run_study
+from tunelab.ops._run import (
+    RunRequest,
+    RunResult,
+    StudyStart,
+    create_objective_study,
+    join_objective_study,
+    resume_study,
+    run_objective_study,
+    run_study,
+)
 from tunelab.ops._ship import ExportResult, PredictResult, export_model, predict_file
 from tunelab.ops._status import StudyDetail, StudyLine, TrialLine, list_studies, study_detail
 
 __all__ = [
-    "ExportResult", "PredictResult", "RunRequest", "RunResult", "StudyDetail", "StudyLine", "StudyStart",
+    "ExportResult", "create_objective_study", "join_objective_study", "PredictResult", "RunRequest", "RunResult", "StudyDetail", "StudyLine", "StudyStart",
     "TrialLine", "export_model", "list_studies", "predict_file", "resume_study", "run_objective_study", "run_study", "study_detail",
 ]

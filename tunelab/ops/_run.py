@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 import re
+import signal
 import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -26,6 +27,8 @@ from tunelab.engine import (
 )
 from tunelab.errors import InputError, StudyStateError
 from tunelab.ops._signals import stop_on_signals
+from tunelab.ops._workers import WorkerGroup
+from tunelab.models import preload
 from tunelab.space import SpaceSpec, default_space
 from tunelab.store import Store, StudyRecord
 
@@ -112,7 +115,8 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         study = _optuna_study(store, record, launch_number=0, expected_trials=None, create=True)
         for config in space.warm_starts:
             study.enqueue_trial(dict(config), user_attrs={"tl_warm_start": True})
-        return _launch(store, record, study, dataset, space, request.budget, clock=clock, announce=announce,
+        return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
+                       clock=clock, announce=announce,
                        on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
                        jobs=request.jobs, notes=dataset.notes)
 
@@ -121,8 +125,12 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
                  data: Path | None = None, accept_changed_data: bool = False, clock: Clock | None = None,
                  announce: Announce | None = None, on_progress: OnProgress | None = None,
                  runner_factory: Callable[[Any], Any] = ForkRunner, settings: SearchSettings | None = None,
-                 jobs: int = 1) -> RunResult:
-    """Continue a study with what is left of its budget (plus any extension)."""
+                 jobs: int = 1, kind: str = "resume") -> RunResult:
+    """Continue a study with what is left of its budget (plus any extension).
+
+    ``kind="worker"`` joins a study other processes are working on (``tunelab worker``): the same
+    path, recorded as a worker launch.
+    """
     clock = clock or SystemClock()
     with Store.open(store) as st:
         record = st.get_study(name)
@@ -136,7 +144,7 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
                                   "restore the original file, start a new study, or pass --accept-changed-data")
         dataset = load_dataset(path, record.target, record.task)
         updates: dict[str, Any] = {}
-        if sha != record.data_sha256 or str(path.resolve()) != record.data_path:
+        if kind != "worker" and (sha != record.data_sha256 or str(path.resolve()) != record.data_path):
             updates.update(data_sha256=sha, data_path=str(path.resolve()),
                            fingerprint=dataset_fingerprint(sha, record.target, record.task))
         budget = Budget(record.budget_wall, record.budget_cpu, record.budget_trials)
@@ -152,13 +160,15 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
         study = _optuna_study(st, record, launch_number=launches, expected_trials=None, create=False)
         settings = settings or SearchSettings()
         settings.phase = phases[-1].number
-        settings.kind = "resume"
-        return _launch(st, record, study, dataset, space, budget, clock=clock, announce=announce,
+        settings.kind = kind
+        return _launch(st, record, study, dataset, space, budget, dataset_path=path.resolve(), clock=clock,
+                       announce=announce,
                        on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=True,
                        jobs=jobs, notes=dataset.notes)
 
 
 def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, space: SpaceSpec, budget: Budget, *,
+            dataset_path: Path,
             clock: Clock, announce: Announce | None, on_progress: OnProgress | None,
             runner_factory: Callable[[Any], Any], settings: SearchSettings | None, resumed: bool, jobs: int,
             notes: list[str]) -> RunResult:
@@ -172,10 +182,20 @@ def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, spa
     threads = THREADS_PER_TRIAL
     objective = CrossValidationObjective(dataset, metric, seed=record.seed, n_threads=threads,
                                          n_folds=record.settings.get("n_folds"))
+    preload(space.families or ["hist_gb"], record.task)
     runner = runner_factory(objective)
     with stop_on_signals():
-        summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
-                         on_progress=on_progress)
+        if jobs > 1:
+            with WorkerGroup(record.name, store.location.url, jobs - 1, data=str(dataset_path)) as group:
+                summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
+                                 on_progress=on_progress)
+                if summary.exit_code:
+                    group.signal_all(signal.SIGTERM)
+                group.wait(timeout=_worker_grace(budget))
+            _add_worker_counts(store, record, study, summary, group.pids)
+        else:
+            summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
+                             on_progress=on_progress)
     best: dict[str, Any] = {}
     if summary.best_trial is not None:
         best = dict(study.trials[summary.best_trial].params)
@@ -197,6 +217,29 @@ def _optuna_study(store: Store, record: StudyRecord, *, launch_number: int, expe
     return optuna.load_study(study_name=record.name, storage=storage, sampler=sampler, pruner=pruner)
 
 
+def _worker_grace(budget: Budget) -> float:
+    """How long the parent waits for workers after its own loop ends: their last trial plus margin."""
+    return 60.0 if budget.wall_seconds is None else max(10.0, 0.05 * budget.wall_seconds + 10.0)
+
+
+def _add_worker_counts(store: Store, record: StudyRecord, study: Any, summary: SearchSummary, pids: list[int]) -> None:
+    """Fold the worker processes' trials into the launch summary, so the user sees the whole run."""
+    from tunelab.engine import trial_state
+    from tunelab.engine._recovery import LAUNCH_ATTR
+
+    ids = {ln.id for ln in store.launches(record.id) if ln.pid in pids and ln.kind == "worker"}
+    for trial in study.get_trials(deepcopy=False):
+        if trial.user_attrs.get(LAUNCH_ATTR) in ids:
+            state = trial_state(trial)
+            if state in summary.counts:
+                summary.counts[state] += 1
+    try:
+        best = study.best_trial
+        summary.best_value, summary.best_trial = float(best.value), best.number
+    except ValueError:
+        pass
+
+
 def make_sampler(kind: str, seed: int) -> Any:
     """TPE (multivariate, grouped for the conditional space, constant liar for parallel workers) or random."""
     import optuna
@@ -210,18 +253,10 @@ def make_sampler(kind: str, seed: int) -> Any:
         return optuna.samplers.TPESampler(seed=seed, multivariate=True, group=True, constant_liar=True)
 
 
-def run_objective_study(name: str, objective: Any, space: SpaceSpec, budget: Budget, *, store: str | None = None,
-                        direction: str = "maximize", metric: str = "value", seed: int = 0, sampler: str = "tpe",
-                        pruning: str = "off", clock: Clock | None = None,
-                        runner_factory: Callable[[Any], Any] | None = None,
-                        settings: SearchSettings | None = None, on_progress: OnProgress | None = None) -> RunResult:
-    """Search any objective ``objective(config, report) -> TrialResult`` with the full engine and store.
-
-    The same budget, ledger, recovery and trial records as a data search; used for test functions
-    with known answers and for measuring the engine itself.
-    """
-    from tunelab.engine import InProcessRunner
-
+def create_objective_study(name: str, space: SpaceSpec, budget: Budget, *, store: str | None = None,
+                           direction: str = "maximize", metric: str = "value", seed: int = 0, sampler: str = "tpe",
+                           pruning: str = "off", clock: Clock | None = None) -> StudyRecord:
+    """Record a study of an arbitrary objective (no data file): same budget, ledger and trial records."""
     clock = clock or SystemClock()
     make_sampler(sampler, seed)
     with Store.open(store, create=True) as st:
@@ -233,13 +268,47 @@ def run_objective_study(name: str, objective: Any, space: SpaceSpec, budget: Bud
             budget_cpu=budget.cpu_seconds, budget_trials=budget.trials,
             settings={"pruning": pruning, "sampler": sampler, "n_folds": 1}, space_json=space.to_json(),
             space_reason="objective study")
-        study = _optuna_study(st, record, launch_number=0, expected_trials=None, create=True)
+        _optuna_study(st, record, launch_number=0, expected_trials=None, create=True)
+        return record
+
+
+def join_objective_study(name: str, objective: Any, *, store: str | None = None, clock: Clock | None = None,
+                         runner_factory: Callable[[Any], Any] | None = None, settings: SearchSettings | None = None,
+                         on_progress: OnProgress | None = None, kind: str = "run") -> RunResult:
+    """Work on an objective study until its budget is spent (several processes may join at once)."""
+    from tunelab.engine import InProcessRunner
+
+    clock = clock or SystemClock()
+    with Store.open(store) as st:
+        record = st.get_study(name)
+        space = SpaceSpec.from_json(st.phases(record.id)[-1].space_json)
+        budget = Budget(record.budget_wall, record.budget_cpu, record.budget_trials)
+        study = _optuna_study(st, record, launch_number=len(st.launches(record.id)), expected_trials=None,
+                              create=False)
+        settings = settings or SearchSettings()
+        settings.kind = kind
         runner = (runner_factory or InProcessRunner)(objective)
         with stop_on_signals():
             summary = search(st, record, study, space, runner, budget, clock=clock, settings=settings,
                              on_progress=on_progress)
         best = dict(study.trials[summary.best_trial].params) if summary.best_trial is not None else {}
-        return RunResult(record.name, st.location.display(), metric, direction, summary, best)
+        return RunResult(record.name, st.location.display(), record.metric, record.direction, summary, best)
+
+
+def run_objective_study(name: str, objective: Any, space: SpaceSpec, budget: Budget, *, store: str | None = None,
+                        direction: str = "maximize", metric: str = "value", seed: int = 0, sampler: str = "tpe",
+                        pruning: str = "off", clock: Clock | None = None,
+                        runner_factory: Callable[[Any], Any] | None = None,
+                        settings: SearchSettings | None = None, on_progress: OnProgress | None = None) -> RunResult:
+    """Search any objective ``objective(config, report) -> TrialResult`` with the full engine and store.
+
+    Used for test functions with known answers and for measuring the engine itself.
+    """
+    clock = clock or SystemClock()
+    create_objective_study(name, space, budget, store=store, direction=direction, metric=metric, seed=seed,
+                           sampler=sampler, pruning=pruning, clock=clock)
+    return join_objective_study(name, objective, store=store, clock=clock, runner_factory=runner_factory,
+                                settings=settings, on_progress=on_progress)
 
 
 def _unique_name(stem: str, taken: set[str]) -> str:

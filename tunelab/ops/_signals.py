@@ -1,4 +1,8 @@
-"""Turning SIGTERM and SIGHUP into a clean stop while a search runs (Ctrl-C is KeyboardInterrupt)."""
+"""Turning Ctrl-C, SIGTERM and SIGHUP into one clean stop while a search runs.
+
+The first signal stops the search (KeyboardInterrupt for SIGINT, StopRequested otherwise);
+later ones are ignored so that recording the interrupted trial cannot itself be interrupted.
+"""
 
 from __future__ import annotations
 
@@ -9,18 +13,24 @@ from typing import Any, Iterator
 
 from tunelab.engine import StopRequested
 
-_EXIT_CODES = {signal.SIGTERM: 143, signal.SIGHUP: 129}
+_EXIT_CODES = {signal.SIGINT: 130, signal.SIGTERM: 143, signal.SIGHUP: 129}
 
 
 @contextlib.contextmanager
 def stop_on_signals() -> Iterator[None]:
-    """Within the block, SIGTERM/SIGHUP raise StopRequested in the main thread."""
+    """Within the block, the first SIGINT/SIGTERM/SIGHUP raises in the main thread; repeats are ignored."""
     if threading.current_thread() is not threading.main_thread():
         yield
         return
     previous: dict[int, Any] = {}
+    fired: list[int] = []
 
     def handler(signum: int, _frame: Any) -> None:
+        if fired:
+            return
+        fired.append(signum)
+        if signum == signal.SIGINT:
+            raise KeyboardInterrupt
         raise StopRequested(signal.Signals(signum).name, _EXIT_CODES.get(signum, 128 + signum))
 
     for sig in _EXIT_CODES:

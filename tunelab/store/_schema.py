@@ -75,3 +75,12 @@ exports = Table(
     Column("sha256", String(64), nullable=False),
     Column("trial_number", Integer, nullable=False),
 )
+
+requeues = Table(
+    "tl_requeue", metadata,
+    Column("id", Integer, primary_key=True, autoincrement=True),
+    Column("study_id", Integer, ForeignKey("tl_study.id"), nullable=False),
+    Column("trial_number", Integer, nullable=False),
+    Column("created_at", String(40), nullable=False),
+    UniqueConstraint("study_id", "trial_number"),
+)

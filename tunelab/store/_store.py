@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from datetime import datetime, timezone
 from typing import Any, Iterator
 
-from sqlalchemy import create_engine, event, func, inspect, select, update
+from sqlalchemy import create_engine, event, func, inspect, select, text, update
 from sqlalchemy.engine import Engine
 from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 
@@ -286,21 +286,65 @@ class Store:
         return [LaunchRecord(**dict(r)) for r in rows]
 
     def mark_dead_launches(self, study_id: int, *, now: float, stale_after: float) -> list[int]:
-        """Mark running launches that died (pid gone on this host, or heartbeat stale) as crashed."""
+        """Mark running launches that died (pid gone on this host, or heartbeat stale) as crashed.
+
+        Returns only the launches *this* call flipped, so when several workers look at once,
+        exactly one of them recovers each dead launch's trials.
+        """
         host = socket.gethostname()
         dead = [ln.id for ln in self.launches(study_id) if ln.state == "running" and (
-            (ln.host == host and not _pid_alive(ln.pid)) or now - ln.heartbeat_epoch > stale_after)]
-        if dead:
+            (ln.host == host and ln.pid != os.getpid() and not _pid_alive(ln.pid))
+            or now - ln.heartbeat_epoch > stale_after)]
+        claimed = []
+        for launch_id in dead:
             with self._translate("mark crashed launches"), self.engine.begin() as conn:
-                conn.execute(update(s.launches).where(s.launches.c.id.in_(dead))
-                             .values(state="crashed", stop_reason="process died; heartbeat stopped"))
-        return dead
+                result = conn.execute(update(s.launches).where(s.launches.c.id == launch_id)
+                                      .where(s.launches.c.state == "running")
+                                      .values(state="crashed", stop_reason="process died; heartbeat stopped"))
+                if result.rowcount == 1:
+                    claimed.append(launch_id)
+        return claimed
 
-    def spent(self, study_id: int, exclude_launch: int | None = None) -> tuple[float, float]:
-        """Wall seconds (union of launch intervals, so parallel launches count once) and CPU seconds."""
-        rows = [ln for ln in self.launches(study_id) if ln.id != exclude_launch]
-        return union_length([(ln.started_epoch, ln.started_epoch + ln.wall_seconds) for ln in rows]), \
-            sum(ln.cpu_seconds for ln in rows)
+    def claim_requeue(self, study_id: int, trial_number: int, *, now: float) -> bool:
+        """Reserve the right to re-run an interrupted trial's config; False if another process did."""
+        from sqlalchemy.exc import IntegrityError
+
+        try:
+            with self.engine.begin() as conn:
+                conn.execute(s.requeues.insert().values(study_id=study_id, trial_number=trial_number,
+                                                        created_at=utc_iso(now)))
+            return True
+        except IntegrityError:
+            return False
+
+    def requeued_trials(self, study_id: int) -> set[int]:
+        with self._translate("read the re-queued trials"), self.engine.connect() as conn:
+            return {r[0] for r in conn.execute(select(s.requeues.c.trial_number)
+                                                .where(s.requeues.c.study_id == study_id))}
+
+    def spent(self, study_id: int, extra: tuple[float, float] | None = None) -> tuple[float, float]:
+        """Wall seconds (union of launch intervals, so parallel launches count once) and CPU seconds.
+
+        ``extra`` adds an interval not yet recorded (a launch about to start, counted from its process start).
+        """
+        rows = self.launches(study_id)
+        intervals = [(ln.started_epoch, ln.started_epoch + ln.wall_seconds) for ln in rows]
+        if extra is not None:
+            intervals.append(extra)
+        return union_length(intervals), sum(ln.cpu_seconds for ln in rows)
+
+    def count_finished(self, study_name: str) -> int:
+        """Finished trials (complete, pruned, failed; not interrupted) of a study, by one SQL count.
+
+        Reads optuna's tables directly so that a trial cap stays cheap at thousands of trials.
+        """
+        sql = text(
+            "select count(*) from trials t join studies s on s.study_id = t.study_id "
+            "where s.study_name = :name and t.state in ('COMPLETE', 'PRUNED', 'FAIL') and not exists ("
+            "select 1 from trial_user_attributes a where a.trial_id = t.trial_id and a.key = 'tl_state' "
+            "and a.value_json = '\"interrupted\"')")
+        with self._translate("count trials"), self.engine.connect() as conn:
+            return int(conn.execute(sql, {"name": study_name}).scalar() or 0)
 
     # ---- exports ---------------------------------------------------------------------------
     def record_export(self, study_id: int, *, now: float, path: str, sha256: str, trial_number: int) -> None:
@@ -370,7 +414,7 @@ def _store_error(location: Location, doing: str, exc: DBAPIError) -> StoreError:
     lowered = text.lower()
     if "not a database" in lowered or "malformed" in lowered:
         return StoreError(f"{where} is corrupt or not a SQLite database", "pass another --store; keep the file for inspection")
-    if "password authentication failed" in lowered or "authentication" in lowered:
+    if "authentication" in lowered or ("role" in lowered and "does not exist" in lowered):
         return StoreError(f"cannot log in to {where}: {text}", "check the user and password in the store URL")
     if "could not connect" in lowered or "connection refused" in lowered or "timeout expired" in lowered \
             or "could not translate host" in lowered:

@@ -1,0 +1,589 @@
+"""The data-driven search space: meta-features in, families, ranges, priors and reasons out.
+
+Every decision the builder takes is a small rule over the meta-features and the budget, and
+every rule leaves a one-line reason in the spec, so ``tunelab profile`` can show why the space
+looks the way it does.  The rules are rules of thumb unless a comment names a source.
+
+How the budget enters: each family's cost probe (seconds per fit, extrapolated to all rows)
+becomes the estimated seconds of one *trial* — a fit per cross-validation fold on the fold's
+training rows.  A family whose trial would eat too large a share of the budget is left out, and
+the work knobs (boosting rounds, trees, epochs) are capped so that a trial at the top of its
+range still leaves room for several others.  The probes time scikit-learn stand-ins on a few
+hundred rows, where fixed set-up work dominates, so each family's estimate is multiplied by a
+correction measured against tunelab's own pipelines (see ``_CORRECTION``).
+
+TPE has no prior centre, so priors are expressed as warm starts: one config per family at the
+centre of its ranges, most promising family first, enqueued before any sampled trial.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Mapping
+
+import numpy as np
+
+from tunelab.data import Dataset
+from tunelab.data._metafeatures import MetaFeatures, scaled_cost
+from tunelab.models._families import MLP_RUNGS
+from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
+from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec
+
+FAMILY_NAMES: tuple[str, ...] = ("hist_gb", "random_forest", "extra_trees", "linear", "svm", "mlp", "knn")
+
+# With no wall-clock budget (a trial cap, or `profile` without --budget) costs are weighed
+# against ten minutes; common practice, no source.
+REFERENCE_BUDGET_S = 600.0
+
+# How strongly each family is expected to do on an unknown table, before the data speaks.
+# Tree ensembles, boosting first, lead on most tabular benchmarks (Grinsztajn, Oyallon and
+# Varoquaux 2022, "Why do tree-based models still outperform deep learning on typical tabular
+# data?", NeurIPS Datasets and Benchmarks; from memory); the numbers are an ordering, no source.
+_STRENGTH = {"hist_gb": 3.0, "random_forest": 2.5, "extra_trees": 2.3, "linear": 2.0,
+             "svm": 1.8, "mlp": 1.6, "knn": 1.2}
+
+# Real seconds of a tunelab pipeline fit over the probe's extrapolated estimate: the median ratio
+# over ten benchmark tables (benchmarks/datasets.py: credit, digits, diamonds, hpc, wage, chile,
+# ames, default, anes96, fair) on the development machine, one thread.  Below 1 where the probe's
+# few hundred rows are dominated by fixed set-up work (trees, boosting); above 1 where tunelab's
+# preprocessing costs more than the model (linear) or the model does more (SVM probabilities,
+# the torch MLP against scikit-learn's).
+_CORRECTION = {"linear": 2.0, "knn": 0.8, "random_forest": 0.35, "extra_trees": 0.45, "hist_gb": 0.3,
+               "svm": 2.0, "mlp": 4.0}
+_SVM_REGRESSION_CORRECTION = 1.2  # no probability calibration for regression
+_FIT_OVERHEAD_S = 0.15  # per fold: building the pipeline, encoding, scoring; measured, rounded
+
+# Budget shares; common practice, no source.
+_TRIAL_SHARE_MAX = 0.25  # a trial at the top of a work knob's range: at least four trials fit
+_SVM_SHARE_MAX = 0.10  # kernel SVM only where a fit is a small share (about 2 %) of the budget
+_KNN_SHARE_MAX = 0.10
+_MLP_SHARE = {"narrow": 0.06, "wide": 0.10, "very_wide": 0.10}  # several trials of the rung fit
+_MLP_MIN_ROWS = {"narrow": 500, "wide": 5_000, "very_wide": 20_000}  # rows to feed the rung
+_SVM_MAX_ROWS = 20_000  # kernel matrix grows with rows squared; common practice, no source
+_KNN_MAX_WIDTH = 50  # distances lose contrast in many dimensions; common practice, no source
+_TRIALS_PER_FAMILY = 3  # trials at its centre each kept family must have room for
+_SKEW_HIGH = 1.0  # |skewness| above 1 is "highly skewed" (Bulmer 1979, Principles of Statistics; from memory)
+_IMBALANCE_HIGH = 3.0  # largest class over smallest; common practice, no source
+_LANDMARK_CLOSE = 0.02  # landmarker gains within this of the best count as "as good"; no source
+_GAP_WEIGHT = 5.0  # points lost per unit of landmarker gap (a gap of 0.1 costs half a point); no source
+
+# The MLP's per-row cost model, relative only (the probe supplies the machine's speed): a fixed
+# cost per mini-batch plus work proportional to the weights and to the hidden units (ReLU,
+# dropout, batch norm).  Constants measured with tunelab's torch MLP on one thread.
+_MLP_BATCH_S = 0.004
+_MLP_WEIGHT_S = 0.6e-9
+_MLP_UNIT_S = 50e-9
+_MLP_EXPECTED_EPOCHS = 40  # early stopping (patience 10) usually ends about here; measured, rounded
+
+
+# --------------------------------------------------------------------------------------
+# What the rules read
+# --------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Facts:
+    """The figures every rule reads, computed once from the dataset and its meta-features."""
+
+    task: str
+    n_rows: int
+    n_fit: int  # training rows of one cross-validation fold
+    n_folds: int
+    n_classes: int | None
+    width_tree: int  # columns after tree preprocessing (ordinal codes, SVD text)
+    width_dense: int  # columns after scaled, dense preprocessing (one-hot, SVD text)
+    rows_per_column: float
+    budget: float
+    budget_given: bool
+    skew: float | None
+    imbalance: float | None
+    n_numeric: int
+    landmarks: Mapping[str, float]
+    landmark_metric: str
+
+
+@dataclass
+class _Decision:
+    family: str
+    include: bool
+    reason: str
+    trial_s: float | None = None
+    score: float = 0.0
+    params: dict[str, ParamSpec] = field(default_factory=dict)
+    centre: dict[str, Any] = field(default_factory=dict)
+
+
+def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None) -> _Facts:
+    from tunelab.engine._folds import fold_count  # the study's own fold rule; lazy: engine imports space
+
+    n_rows = dataset.n_rows
+    n_folds = fold_count(n_rows, dataset.task, dataset.y)
+    cols = [c for c in dataset.columns if c.role != "id"]
+    missing_numeric = sum(1 for c in cols if c.role == "numeric" and c.missing_share > 0)
+    base = sum(1 for c in cols if c.role == "numeric") + missing_numeric + 5 * sum(
+        1 for c in cols if c.role == "datetime")
+    text = sum(1 for c in cols if c.role == "text")
+    width_tree = base + sum(1 for c in cols if c.role == "categorical") + 32 * text
+    width_dense = base + 32 * text + sum(
+        min(c.n_unique, ONE_HOT_MAX_CARDINALITY) if c.n_unique <= ONE_HOT_MAX_CARDINALITY else 1
+        for c in cols if c.role == "categorical")
+    lm = meta.landmarkers
+    # Accuracy over the majority-class rate, rescaled so 0 is guessing and 1 is perfect: on 97 %
+    # majority data every raw accuracy is near 0.97 and would look "as good as the best".
+    floor = 0.0
+    if dataset.task != "regression" and len(dataset.y):
+        _, counts = np.unique(dataset.y, return_counts=True)
+        floor = float(counts.max() / counts.sum())
+    landmarks = {k: (v - floor) / (1 - floor) if floor < 1 else 0.0
+                 for k, v in (("one_nn", lm.one_nn), ("decision_stump", lm.decision_stump),
+                              ("naive_bayes", lm.naive_bayes), ("linear", lm.linear)) if v is not None}
+    return _Facts(
+        task=dataset.task, n_rows=n_rows, n_fit=max(2, int(n_rows * (n_folds - 1) / n_folds)), n_folds=n_folds,
+        n_classes=meta.simple.n_classes, width_tree=max(1, width_tree), width_dense=max(1, width_dense),
+        rows_per_column=meta.simple.rows_per_column,
+        budget=float(budget_seconds) if budget_seconds else REFERENCE_BUDGET_S,
+        budget_given=bool(budget_seconds), skew=meta.statistical.mean_abs_skewness,
+        imbalance=meta.information.imbalance_ratio, n_numeric=meta.simple.n_numeric,
+        landmarks=landmarks, landmark_metric=lm.metric,
+    )
+
+
+def _trial_seconds(family: str, facts: _Facts, meta: MetaFeatures, work: float = 1.0) -> float | None:
+    """Estimated seconds of one trial: a fit per fold, ``work`` times the probe's amount of work."""
+    probe = meta.cost.get(family)
+    if probe is None or probe.estimated_seconds is None:
+        return None
+    fit = scaled_cost(probe.estimated_seconds, max(facts.n_rows, probe.probe_rows), facts.n_fit, probe.scaling)
+    correction = _SVM_REGRESSION_CORRECTION if family == "svm" and facts.task == "regression" else _CORRECTION[family]
+    return facts.n_folds * (fit * correction * work + _FIT_OVERHEAD_S)
+
+
+def _mlp_row_cost(width_in: int, hidden: int, layers: int, batch: int, n_out: int) -> float:
+    weights = width_in * hidden + hidden * hidden * max(0, layers - 1) + hidden * n_out
+    return _MLP_BATCH_S / batch + _MLP_WEIGHT_S * weights + _MLP_UNIT_S * hidden * layers
+
+
+def _mlp_trial_seconds(rung: str, batch: int, epochs: int, facts: _Facts, meta: MetaFeatures) -> float | None:
+    """The MLP probe (scikit-learn, 100 units, 50 epochs) scaled to the rung's network and epochs."""
+    base = _trial_seconds("mlp", facts, meta)
+    if base is None:
+        return None
+    (w_lo, w_hi), (l_lo, l_hi), _ = MLP_RUNGS[rung]
+    width, layers = int(math.sqrt(w_lo * w_hi)), int(round((l_lo + l_hi) / 2))
+    n_out = facts.n_classes or 1
+    size = _mlp_row_cost(facts.width_dense, width, layers, batch, n_out) / _mlp_row_cost(
+        facts.width_dense, 100, 1, 200, n_out)
+    return base * max(1.0, size) * min(epochs, _MLP_EXPECTED_EPOCHS) / 50
+
+
+def _share(seconds: float | None, facts: _Facts) -> str:
+    if seconds is None:
+        return "cost unknown (probe failed)"
+    share = 100 * seconds / facts.budget
+    share_words = "< 1" if share < 1 else f"{share:.0f}"
+    return f"a trial ≈ {_secs(seconds)}, {share_words} % of the {_budget_words(facts)}"
+
+
+def _secs(seconds: float) -> str:
+    return f"{seconds:.1f} s" if seconds < 10 else f"{seconds:.0f} s"
+
+
+def _budget_words(facts: _Facts) -> str:
+    words = f"{facts.budget:g} s budget"
+    return words if facts.budget_given else words + " (reference; no budget given)"
+
+
+def _landmark(facts: _Facts, name: str) -> float | None:
+    return facts.landmarks.get(name)
+
+
+def _best_landmark(facts: _Facts) -> float | None:
+    return max(facts.landmarks.values()) if facts.landmarks else None
+
+
+# --------------------------------------------------------------------------------------
+# Parameter helpers
+# --------------------------------------------------------------------------------------
+
+
+def _clamp(value: float, low: float, high: float) -> float:
+    return max(low, min(high, value))
+
+
+def _float(low: float, high: float, reason: str, *, log: bool = False) -> ParamSpec:
+    return ParamSpec("float", low=float(low), high=float(high), log=log, reason=reason)
+
+
+def _int(low: int, high: int, reason: str, *, log: bool = False) -> ParamSpec:
+    low, high = int(low), int(high)
+    return ParamSpec("int", low=low, high=max(low, high), log=log, reason=reason)
+
+
+def _cat(choices: tuple[Any, ...], reason: str) -> ParamSpec:
+    return ParamSpec("categorical", choices=choices, reason=reason)
+
+
+def _centre(spec: ParamSpec, preferred: Any = None) -> Any:
+    """The prior centre: ``preferred`` moved inside the range, else the range's own centre."""
+    if preferred is None or spec.kind == "categorical":
+        return spec.centre()
+    value = _clamp(preferred, spec.low, spec.high)  # type: ignore[arg-type]
+    return int(round(value)) if spec.kind == "int" else float(value)
+
+
+def _put(d: _Decision, name: str, spec: ParamSpec, preferred: Any = None) -> None:
+    d.params[name] = spec
+    d.centre[name] = _centre(spec, preferred)
+
+
+# --------------------------------------------------------------------------------------
+# Shared per-family settings
+# --------------------------------------------------------------------------------------
+
+
+def _numeric_transform(d: _Decision, facts: _Facts) -> None:
+    """Log or quantile maps for scaled models when the numeric columns are skewed."""
+    if facts.n_numeric == 0 or facts.skew is None:
+        return
+    if facts.skew > _SKEW_HIGH:
+        _put(d, "num_transform", _cat(("quantile", "log", "standard"),
+                                      f"numeric columns skewed (mean |skewness| {facts.skew:.1f} > {_SKEW_HIGH:g}): "
+                                      "quantile or log map first, plain scaling kept"))
+    else:
+        _put(d, "num_transform", _cat(("standard", "quantile"),
+                                      f"numeric columns near symmetric (mean |skewness| {facts.skew:.1f}): "
+                                      "plain scaling first, quantile map kept"))
+
+
+def _class_weight(d: _Decision, facts: _Facts) -> None:
+    if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH:
+        _put(d, "class_weight", _cat((None, "balanced"),
+                                     f"classes imbalanced (largest/smallest = {facts.imbalance:.1f}): "
+                                     "balanced weights searched"))
+
+
+def _work_cap(family: str, facts: _Facts, meta: MetaFeatures, per_unit: float, ceiling: int) -> int | None:
+    """The largest work knob (trees, rounds) whose trial stays within the trial share of the budget.
+
+    ``per_unit`` is the knob's value that the probe's work corresponds to (100 trees, 100 rounds).
+    """
+    unit = _trial_seconds(family, facts, meta, 1.0)
+    if unit is None:
+        return None
+    overhead = facts.n_folds * _FIT_OVERHEAD_S
+    allowed = _TRIAL_SHARE_MAX * facts.budget - overhead
+    per_knob = max(unit - overhead, 1e-9) / per_unit
+    return int(min(ceiling, max(0.0, allowed) / per_knob))
+
+
+# --------------------------------------------------------------------------------------
+# Families
+# --------------------------------------------------------------------------------------
+
+
+def _linear(facts: _Facts, meta: MetaFeatures) -> _Decision:
+    trial = _trial_seconds("linear", facts, meta)
+    d = _Decision("linear", True, "fast baseline, strong with many sparse or one-hot features; " + _share(trial, facts),
+                  trial)
+    r = facts.rows_per_column
+    if facts.task == "regression":
+        # Ridge's penalty is not divided by the rows, so equal shrinkage needs alpha ∝ rows.
+        lo, hi = (1e-5, 10.0) if r < 10 else (1e-6, 1.0)
+        _put(d, "alpha", _float(lo * facts.n_fit, hi * facts.n_fit,
+                                f"ridge penalty scales with the {facts.n_fit} training rows; "
+                                f"{'stronger, few rows per column' if r < 10 else 'six decades'}", log=True))
+    else:
+        lo, hi, why = ((1e-4, 10.0, "toward strong penalties: few rows per column") if r < 10 else
+                       (1e-3, 100.0, "five decades") if r < 100 else
+                       (1e-2, 1000.0, "toward weak penalties: many rows per column"))
+        _put(d, "C", _float(lo, hi, f"inverse penalty, {why} ({r:.0f} rows per column)", log=True), 1.0)
+        _class_weight(d, facts)
+    _numeric_transform(d, facts)
+    return d
+
+
+def _hist_gb(facts: _Facts, meta: MetaFeatures) -> _Decision:
+    cap = _work_cap("hist_gb", facts, meta, 100, 500)
+    if cap is not None and cap < 20:
+        return _Decision("hist_gb", False, f"even 20 boosting rounds would pass {_TRIAL_SHARE_MAX:.0%} of the "
+                         f"{_budget_words(facts)}", _trial_seconds("hist_gb", facts, meta, 0.2))
+    hi = 500 if cap is None else cap
+    lo = min(50, hi)
+    trial = _trial_seconds("hist_gb", facts, meta, math.sqrt(lo * hi) / 100)
+    d = _Decision("hist_gb", True, "strong default for tabular data; " + _share(trial, facts), trial)
+    budget_note = "" if hi == 500 else f", capped at {hi} so a trial stays within {_TRIAL_SHARE_MAX:.0%} of the budget"
+    _put(d, "max_iter", _int(lo, hi, f"boosting rounds{budget_note}", log=True))
+    lr_lo = _clamp(5.0 / hi, 0.01, 0.1)
+    _put(d, "learning_rate", _float(lr_lo, 0.3, f"step size; floor {lr_lo:.2g} so {hi} rounds can converge",
+                                    log=True), 0.1)
+    leaves_hi = int(_clamp(facts.n_fit / 50, 16, 128))
+    _put(d, "max_leaf_nodes", _int(4, leaves_hi, f"tree size, up to one leaf per 50 of the {facts.n_fit} training rows",
+                                   log=True), 31)
+    leaf_lo = int(_clamp(facts.n_fit / 2000, 1, 20))
+    leaf_hi = int(_clamp(facts.n_fit / 20, 8, 500))
+    _put(d, "min_samples_leaf", _int(leaf_lo, leaf_hi, f"leaf size grows with the {facts.n_fit} training rows",
+                                     log=True), 20)
+    _put(d, "l2_regularization", _float(1e-4, 10.0, "leaf value shrinkage over five decades", log=True), 1e-3)
+    feat_lo = 0.3 if facts.width_tree > 20 else 0.5
+    _put(d, "max_features", _float(feat_lo, 1.0, f"share of the {facts.width_tree} features per split; "
+                                                 f"{'wider' if feat_lo < 0.5 else 'narrower'} range "
+                                                 f"for {'many' if feat_lo < 0.5 else 'few'} columns"), 1.0)
+    if facts.task != "regression":
+        _class_weight(d, facts)
+    return d
+
+
+def _forest(family: str, facts: _Facts, meta: MetaFeatures) -> _Decision:
+    cap = _work_cap(family, facts, meta, 100, 500)
+    if cap is not None and cap < 20:
+        return _Decision(family, False, f"even 20 trees would pass {_TRIAL_SHARE_MAX:.0%} of the "
+                         f"{_budget_words(facts)}", _trial_seconds(family, facts, meta, 0.2))
+    hi = 500 if cap is None else cap
+    lo = min(50, hi)
+    trial = _trial_seconds(family, facts, meta, math.sqrt(lo * hi) / 100)
+    why = ("robust, little tuning needed" if family == "random_forest"
+           else "random split points: lower variance than random forest on noisy data")
+    d = _Decision(family, True, f"{why}; " + _share(trial, facts), trial)
+    budget_note = "" if hi == 500 else f", capped at {hi} so a trial stays within {_TRIAL_SHARE_MAX:.0%} of the budget"
+    _put(d, "n_estimators", _int(lo, hi, f"more trees help less and less; cost grows linearly{budget_note}", log=True))
+    # Hastie, Tibshirani and Friedman, The Elements of Statistical Learning (2nd ed.), section 15.3:
+    # m = sqrt(p) features per split for classification, p / 3 for regression (from memory).
+    p = facts.width_tree
+    centre = 1 / math.sqrt(p) if facts.task != "regression" else 1 / 3
+    lo_f = _clamp(centre / 3, 1 / p, 1.0)
+    rule = "√p" if facts.task != "regression" else "p/3"
+    _put(d, "max_features", _float(lo_f, 1.0, f"share of the {p} features per split, centred on the {rule} rule",
+                                   log=True), max(centre, lo_f))
+    leaf_hi = int(_clamp(facts.n_fit / 100, 4, 50))
+    _put(d, "min_samples_leaf", _int(1, leaf_hi, f"leaf size, up to one per 100 of the {facts.n_fit} training rows",
+                                     log=True), 1 if facts.task != "regression" else 5)
+    if facts.task != "regression":
+        _class_weight(d, facts)
+    return d
+
+
+def _knn(facts: _Facts, meta: MetaFeatures) -> _Decision:
+    trial = _trial_seconds("knn", facts, meta)
+    one_nn, best = _landmark(facts, "one_nn"), _best_landmark(facts)
+    informative = one_nn is not None and best is not None and one_nn >= best - _LANDMARK_CLOSE
+    if facts.width_dense > _KNN_MAX_WIDTH and not informative:
+        return _Decision("knn", False, f"high-dimensional ({facts.width_dense} encoded columns > {_KNN_MAX_WIDTH}) "
+                         "and the 1-NN landmarker trails: distances carry little signal", trial)
+    if trial is None or trial > _KNN_SHARE_MAX * facts.budget:
+        return _Decision("knn", False, f"{_share(trial, facts)}, over the {_KNN_SHARE_MAX:.0%} allowed", trial)
+    why = "distances are informative" if informative else "local averaging, a different bias from trees"
+    d = _Decision("knn", True, f"{why}; " + _share(trial, facts), trial)
+    k_hi = int(_clamp(2 * math.sqrt(facts.n_fit), 10, 200))
+    k_hi = max(2, min(k_hi, facts.n_fit // 2))
+    _put(d, "n_neighbors", _int(1, k_hi, f"neighbours, up to 2√n of the {facts.n_fit} training rows", log=True),
+         _clamp(math.sqrt(facts.n_fit) / 2, 5, 50))
+    _put(d, "weights", _cat(("distance", "uniform"), "closer neighbours count more, or all alike"))
+    _numeric_transform(d, facts)
+    return d
+
+
+def _svm(facts: _Facts, meta: MetaFeatures) -> _Decision:
+    trial = _trial_seconds("svm", facts, meta)
+    if facts.n_rows > _SVM_MAX_ROWS:
+        return _Decision("svm", False, f"{facts.n_rows} rows: the kernel matrix grows with rows squared "
+                         f"(limit {_SVM_MAX_ROWS})", trial)
+    if trial is None or trial > _SVM_SHARE_MAX * facts.budget:
+        return _Decision("svm", False, f"{_share(trial, facts)}, over the {_SVM_SHARE_MAX:.0%} allowed", trial)
+    d = _Decision("svm", True, "smooth non-linear boundaries on scaled data; " + _share(trial, facts), trial)
+    _put(d, "C", _float(1e-2, 1e2, "inverse penalty, four decades around 1", log=True), 1.0)
+    p = facts.width_dense
+    _put(d, "gamma", _float(0.1 / p, 10 / p, f"kernel width around 1/p for {p} scaled columns", log=True), 1 / p)
+    if facts.task != "regression":
+        _class_weight(d, facts)
+    _numeric_transform(d, facts)
+    return d
+
+
+def _mlp(facts: _Facts, meta: MetaFeatures) -> tuple[_Decision, list[str]]:
+    batch = (64, 32, 128) if facts.n_fit < 2000 else (128, 256, 64) if facts.n_fit < 20_000 else (256, 512, 1024)
+    epochs_hi = 200 if facts.n_fit < 20_000 else 100
+    rungs: list[str] = []
+    notes: list[str] = []
+    trials: dict[str, float | None] = {}
+    for rung in MLP_RUNGS:
+        trial = _mlp_trial_seconds(rung, batch[0], epochs_hi, facts, meta)
+        trials[rung] = trial
+        rows_ok = facts.n_rows >= _MLP_MIN_ROWS[rung]
+        cost_ok = trial is not None and trial <= _MLP_SHARE[rung] * facts.budget
+        below_ok = rung == "narrow" or (rungs and rungs[-1] == list(MLP_RUNGS)[list(MLP_RUNGS).index(rung) - 1])
+        if rows_ok and cost_ok and below_ok:
+            rungs.append(rung)
+        elif rung != "narrow":
+            why = (f"needs {_MLP_MIN_ROWS[rung]} rows, has {facts.n_rows}" if not rows_ok else
+                   f"{_share(trial, facts)}, over the {_MLP_SHARE[rung]:.0%} allowed" if not cost_ok else
+                   "the rung below it is out")
+            notes.append(f"MLP rung '{rung}' left out: {why}")
+    if not rungs:
+        rows_ok = facts.n_rows >= _MLP_MIN_ROWS["narrow"]
+        why = (f"{facts.n_rows} rows, too few to train a network with an inner validation split "
+               f"(needs {_MLP_MIN_ROWS['narrow']})" if not rows_ok else
+               f"{_share(trials['narrow'], facts)}: fewer than several trials of even the narrow rung fit")
+        return _Decision("mlp", False, why, trials["narrow"]), []
+    ladder = ", ".join(rungs)
+    d = _Decision("mlp", True, f"torch MLP, batch norm and ReLU, rungs: {ladder}; "
+                  + _share(trials["narrow"], facts), trials["narrow"])
+    _put(d, "rung", _cat(tuple(rungs), "network size ladder: 1 layer of 100–500 units; 2–3 layers of 1,200–1,500 "
+                                       "with 40–50 % dropout; 1 layer of 8,000–10,000 with 60–80 % dropout"))
+    _put(d, "rung_width", _float(0.0, 1.0, "position in the rung's width range (log scale)"), 0.5)
+    if "wide" in rungs:
+        _put(d, "rung_depth", _float(0.0, 1.0, "position in the rung's layer range"), 0.0)
+    _put(d, "rung_dropout", _float(0.0, 1.0, "position in the rung's dropout range"), 0.5)
+    _put(d, "learning_rate", _float(1e-4, 1e-2, "Adam step size, two decades around 1e-3", log=True), 1e-3)
+    _put(d, "weight_decay", _float(1e-6, 1e-2, "L2 penalty on the weights", log=True), 1e-4)
+    _put(d, "batch_size", _cat(batch, f"mini-batch rows suited to {facts.n_fit} training rows"))
+    _put(d, "max_epochs", _int(20, epochs_hi, "epoch cap; early stopping usually ends sooner", log=True),
+         min(100, epochs_hi))
+    _numeric_transform(d, facts)
+    return d, notes
+
+
+# --------------------------------------------------------------------------------------
+# Ranking and assembly
+# --------------------------------------------------------------------------------------
+
+
+def _evidence(family: str, facts: _Facts) -> tuple[float, str]:
+    """Points from the landmarkers, and the words for them.
+
+    Landmarker scores are read as gains over guessing (see ``_facts``), so a gap means the same
+    on balanced and on heavily imbalanced classes.  Two rules, no source:
+
+    * a family whose landmarker trails the best landmarker loses ``_GAP_WEIGHT`` points per unit
+      of the gap (linear: the linear landmarker; kNN: 1-NN; SVM and MLP: the better of the two).
+      No landmarker speaks for tree ensembles (a single split is too weak a stand-in), so they
+      keep their prior;
+    * when 1-NN is the best landmarker, by a margin, local smooth structure favours neighbours
+      and kernels: kNN and SVM gain a point.
+    """
+    best = _best_landmark(facts)
+    if best is None:
+        return 0.0, ""
+    one_nn, stump, linear = (_landmark(facts, k) for k in ("one_nn", "decision_stump", "linear"))
+    proxies = {"linear": (linear,), "knn": (one_nn,), "svm": (linear, one_nn), "mlp": (linear, one_nn)}
+    points, words = 0.0, []
+    present = [v for v in proxies.get(family, ()) if v is not None]
+    if present:
+        gap = best - max(present)
+        if gap > _LANDMARK_CLOSE:
+            points -= min(2.0, _GAP_WEIGHT * gap)
+            words.append(f"its landmarker trails the best by {gap:.2f}")
+        elif family == "linear":
+            words.append("linear landmarker among the best")
+    others = [v for v in (linear, stump) if v is not None]
+    if family in ("knn", "svm") and one_nn is not None and others and one_nn > max(others) + _LANDMARK_CLOSE:
+        points += 1.0
+        words.append("1-NN is the best landmarker: smooth local structure")
+    return points, "; ".join(words)
+
+
+def _select(decisions: list[_Decision], facts: _Facts) -> tuple[list[_Decision], str]:
+    """Keep the best-scoring candidates while a few trials of each still fit the budget (at least two)."""
+    candidates = [d for d in decisions if d.include]
+    for d in candidates:
+        bonus, words = _evidence(d.family, facts)
+        share = (d.trial_s or 0.0) / facts.budget
+        d.score = _STRENGTH[d.family] + bonus - 4.0 * share
+        if words:
+            d.reason += f"; {words}"
+    ranked = sorted(candidates, key=lambda d: -d.score)
+    planned = 0.0
+    for position, d in enumerate(ranked):
+        need = _TRIALS_PER_FAMILY * (d.trial_s or 0.0)
+        if position >= 2 and planned + need > facts.budget:
+            d.include = False
+            d.reason = (f"ranked {position + 1} of {len(ranked)}; {_TRIALS_PER_FAMILY} trials of each family "
+                        f"ranked above already fill {planned / facts.budget:.0%} of the {_budget_words(facts)}")
+        else:
+            planned += need
+    kept = [d for d in ranked if d.include]
+    why = (f"{len(kept)} of {len(FAMILY_NAMES)} families, ranked by strength, landmarkers and cost, "
+           f"kept while {_TRIALS_PER_FAMILY} trials of each fit the {_budget_words(facts)}")
+    return kept, why
+
+
+def _prep_params(dataset: Dataset, meta: MetaFeatures, facts: _Facts) -> tuple[dict[str, ParamSpec], dict[str, Any]]:
+    params: dict[str, ParamSpec] = {}
+    centre: dict[str, Any] = {}
+    tokens = meta.simple.mean_text_tokens
+    if tokens:
+        words = ", ".join(f"{name} {t:.1f}" for name, t in tokens.items())
+        hi = int(_clamp(2 * facts.n_rows, 1000, 20000))
+        params["prep.text_features"] = _int(300, hi, f"TF-IDF vocabulary; mean words per value: {words}", log=True)
+        centre["prep.text_features"] = _centre(params["prep.text_features"], 5000)
+        comp_hi = int(_clamp(facts.n_rows / 20, 16, 256))
+        params["prep.text_components"] = _int(8, comp_hi, "SVD components of the TF-IDF text, for tree, kNN and "
+                                                           "MLP models", log=True)
+        centre["prep.text_components"] = _centre(params["prep.text_components"], 32)
+    return params, centre
+
+
+def _preprocessing_notes(dataset: Dataset, facts: _Facts) -> list[str]:
+    notes: list[str] = []
+    cats = [c for c in dataset.columns if c.role == "categorical"]
+    if cats:
+        few = sum(1 for c in cats if c.n_unique <= ONE_HOT_MAX_CARDINALITY)
+        notes.append(f"categorical columns: {few} one-hot (≤ {ONE_HOT_MAX_CARDINALITY} levels), "
+                     f"{len(cats) - few} target-encoded (more levels), ordinal codes for trees")
+    dates = [c.name for c in dataset.columns if c.role == "datetime"]
+    if dates:
+        notes.append(f"datetime columns split into year, month, weekday, hour and day count: {', '.join(dates)}")
+    texts = [c.name for c in dataset.columns if c.role == "text"]
+    if texts:
+        notes.append(f"text columns as TF-IDF (sparse for linear and SVM, SVD components otherwise): {', '.join(texts)}")
+    missing = [c for c in dataset.columns if c.role == "numeric" and c.missing_share > 0]
+    if missing:
+        notes.append(f"{len(missing)} numeric columns with missing values: median fill plus a missing indicator")
+    if facts.skew is not None and facts.skew > _SKEW_HIGH:
+        notes.append(f"numeric columns skewed (mean |skewness| {facts.skew:.1f}): scaled models search "
+                     "quantile and log maps")
+    if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH:
+        notes.append(f"classes imbalanced ({facts.imbalance:.1f} : 1): class weights searched")
+    return notes
+
+
+def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float | None) -> SpaceSpec:
+    """Build a search space for one dataset from its meta-features and the budget.
+
+    Parameters
+    ----------
+    dataset
+        The loaded data (roles, cardinalities, row count, target).
+    meta
+        Its meta-features (:func:`tunelab.data._metafeatures.compute_metafeatures`); the cost
+        probes decide which families fit the budget, the landmarkers how promising each is.
+    budget_seconds
+        The study's wall-clock budget; ``None`` weighs costs against a reference of
+        ``REFERENCE_BUDGET_S`` seconds.
+
+    Returns
+    -------
+    SpaceSpec
+        Families that fit, ranges scaled to the data, warm starts at the prior centres of the
+        most promising families first, and a one-line reason for every decision.
+    """
+    facts = _facts(dataset, meta, budget_seconds)
+    mlp, mlp_notes = _mlp(facts, meta)
+    decisions = [_hist_gb(facts, meta), _forest("random_forest", facts, meta), _forest("extra_trees", facts, meta),
+                 _linear(facts, meta), _svm(facts, meta), mlp, _knn(facts, meta)]
+    kept, family_reason = _select(decisions, facts)
+    prep, prep_centre = _prep_params(dataset, meta, facts)
+    families = {d.family: FamilySpec(dict(d.params), d.reason) for d in kept}
+    warm = tuple({"family": d.family, **prep_centre, **{f"{d.family}.{k}": v for k, v in d.centre.items()}}
+                 for d in kept)
+    left_out = [f"{d.family} left out: {d.reason}" for d in decisions if not d.include]
+    kept_mlp = any(d.family == "mlp" for d in kept)
+    notes = [f"{len(dataset.columns)} columns, {facts.n_rows} rows, {dataset.task}; {facts.n_folds}-fold "
+             "cross-validation per trial",
+             *left_out, *(mlp_notes if kept_mlp else []), *_preprocessing_notes(dataset, facts),
+             "warm starts (prior centres, tried first): " + ", ".join(d.family for d in kept)]
+    return SpaceSpec(params=prep, families=families, warm_starts=warm, notes=tuple(notes),
+                     family_reason=family_reason)
+
+
+__all__ = ["FAMILY_NAMES", "REFERENCE_BUDGET_S", "build_space"]
