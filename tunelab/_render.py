@@ -136,3 +136,24 @@ def print_detail(d: Any) -> None:
         for w in active:
             table.add_row(w["host"], str(w["pid"]), w["last_heartbeat"][:19], str(w["trials_done"]))
         out.print(table)
+
+
+def print_importance(record: Any, report: Any) -> None:
+    table = Table(title=f"what mattered in {record.name} ({record.metric}, {report.method})", title_justify="left",
+                  header_style="bold")
+    for name, justify in (("parameter", "left"), ("judged in", "left"), ("share", "right"), ("80% interval", "right"),
+                          ("moves score by", "right"), ("best value", "right"), ("verdict", "left")):
+        table.add_column(name, justify=justify)  # type: ignore[arg-type]
+    for row in report.rows:
+        interval = "-" if row.low is None else f"{row.low:.2f}–{row.high:.2f}"
+        best = row.best_value
+        best_text = "-" if best is None else (f"{best:.4g}" if isinstance(best, float) else str(best))
+        style = {"keep tuning": "bold", "no measurable effect": "dim"}.get(row.action, "")
+        table.add_row(row.param, row.family or "all trials", fmt(row.importance, 2), interval, fmt(row.spread),
+                      best_text, row.verdict, style=style)
+    out.print(table)
+    for group in report.groups:
+        if group.trials_needed:
+            out.print(f"note: {group.message}")
+    if not report.enough_trials:
+        out.print(f"about {report.trials_needed} more trials would make this table stable")

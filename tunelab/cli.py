@@ -296,6 +296,62 @@ def predict(
         r.err.print(f"note: ignored columns the model does not use: {', '.join(result.extra_columns[:10])}")
 
 
+@app.command()
+def importance(
+    study: str = typer.Argument(..., help="Study whose finished trials to analyse."),
+    method: str = typer.Option("fanova", "--method", help="fanova (variance shares) or ped-anova (what the top trials share)."),
+    family: Optional[str] = typer.Option(None, "--family", help="Only this model family's parameters and trials."),
+    tolerance: Optional[float] = typer.Option(None, "--tolerance",
+                                              help="Smallest score change that matters, in metric units. "
+                                                   "[default: 0.002 for roc_auc/accuracy/r2, else 2% of the score range]"),
+    store: Optional[str] = StoreOpt,
+    json_out: bool = JsonOpt,
+) -> None:
+    """Which parameters mattered, with 80% intervals, and which to stop tuning (and at what value).
+
+    Verdicts: "keep tuning", "freeze at VALUE", "no measurable effect". Act on them with `tunelab freeze`.
+    """
+    from tunelab import _render as r
+    from tunelab.ops import study_importance
+
+    record, report = study_importance(study, store=store, method=method, family=family, tolerance=tolerance)
+    if json_out:
+        r.emit_json({"study": record.name, "metric": record.metric, **report.to_dict()})
+        return
+    r.print_importance(record, report)
+
+
+@app.command()
+def freeze(
+    study: str = typer.Argument(..., help="Study to narrow."),
+    assignments: Optional[list[str]] = typer.Argument(None, help="PARAM=VALUE pairs, e.g. hist_gb.max_iter=300."),
+    auto: bool = typer.Option(False, "--auto", help="Freeze what `tunelab importance` says to freeze or has no effect."),
+    store: Optional[str] = StoreOpt,
+    json_out: bool = JsonOpt,
+) -> None:
+    """Hold parameters at fixed values from now on: a new phase of the study that `resume` continues.
+
+    Earlier trials stay in the study and stay comparable.
+    """
+    from tunelab import _render as r
+    from tunelab.ops import freeze_parameters
+
+    pairs: dict[str, str] = {}
+    for item in assignments or []:
+        key, sep, value = item.partition("=")
+        if not sep or not key:
+            raise typer.BadParameter(f"expected PARAM=VALUE, got '{item}'")
+        pairs[key.strip()] = value.strip()
+    result = freeze_parameters(study, pairs, auto=auto, store=store)
+    if json_out:
+        r.emit_json(result.to_dict())
+        return
+    r.out.print(f"study {result.study}: phase {result.phase} starts at trial {result.first_trial}; frozen:")
+    for key, value in result.frozen.items():
+        r.out.print(f"  {key} = {value}  ({result.reasons[key]})")
+    r.out.print(f"continue with: tunelab resume {result.study} --extend 10m")
+
+
 def main(argv: list[str] | None = None) -> None:
     """Entry point: run the app; map TunelabError to one line on stderr and exit code 2."""
     import time

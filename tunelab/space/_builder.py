@@ -66,6 +66,7 @@ _TRIALS_PER_FAMILY = 3  # trials at its centre each kept family must have room f
 _SKEW_HIGH = 1.0  # |skewness| above 1 is "highly skewed" (Bulmer 1979, Principles of Statistics; from memory)
 _IMBALANCE_HIGH = 3.0  # largest class over smallest; common practice, no source
 _LANDMARK_CLOSE = 0.02  # landmarker gains within this of the best count as "as good"; no source
+_SCORE_FLOOR = 0.5  # a family whose points fall below this has the evidence against it; no source
 _GAP_WEIGHT = 5.0  # points lost per unit of landmarker gap (a gap of 0.1 costs half a point); no source
 
 # The MLP's per-row cost model, relative only (the probe supplies the machine's speed): a fixed
@@ -100,7 +101,6 @@ class _Facts:
     imbalance: float | None
     n_numeric: int
     landmarks: Mapping[str, float]
-    landmark_metric: str
 
 
 @dataclass
@@ -110,6 +110,7 @@ class _Decision:
     reason: str
     trial_s: float | None = None
     score: float = 0.0
+    evidence: str = ""
     params: dict[str, ParamSpec] = field(default_factory=dict)
     centre: dict[str, Any] = field(default_factory=dict)
 
@@ -145,7 +146,7 @@ def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None) -
         budget=float(budget_seconds) if budget_seconds else REFERENCE_BUDGET_S,
         budget_given=bool(budget_seconds), skew=meta.statistical.mean_abs_skewness,
         imbalance=meta.information.imbalance_ratio, n_numeric=meta.simple.n_numeric,
-        landmarks=landmarks, landmark_metric=lm.metric,
+        landmarks=landmarks,
     )
 
 
@@ -486,16 +487,21 @@ def _select(decisions: list[_Decision], facts: _Facts) -> tuple[list[_Decision],
     """Keep the best-scoring candidates while a few trials of each still fit the budget (at least two)."""
     candidates = [d for d in decisions if d.include]
     for d in candidates:
-        bonus, words = _evidence(d.family, facts)
+        bonus, d.evidence = _evidence(d.family, facts)
         share = (d.trial_s or 0.0) / facts.budget
         d.score = _STRENGTH[d.family] + bonus - 4.0 * share
-        if words:
-            d.reason += f"; {words}"
+        if d.evidence:
+            d.reason += f"; {d.evidence}"
     ranked = sorted(candidates, key=lambda d: -d.score)
     planned = 0.0
     for position, d in enumerate(ranked):
         need = _TRIALS_PER_FAMILY * (d.trial_s or 0.0)
-        if position >= 2 and planned + need > facts.budget:
+        # linear stays whatever its landmarker says: the cheapest fallback, and the landmarker
+        # sees raw columns, not the quantile or log maps the search can give it
+        if position >= 2 and d.score < _SCORE_FLOOR and d.family != "linear":
+            d.include = False
+            d.reason = f"ranked {position + 1} of {len(ranked)}; the landmarkers speak against it: {d.evidence}"
+        elif position >= 2 and planned + need > facts.budget:
             d.include = False
             d.reason = (f"ranked {position + 1} of {len(ranked)}; {_TRIALS_PER_FAMILY} trials of each family "
                         f"ranked above already fill {planned / facts.budget:.0%} of the {_budget_words(facts)}")

@@ -1,0 +1,154 @@
+"""The ``importance`` and ``freeze`` verbs: which knobs mattered, and narrowing the space to the rest."""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+from typing import Any, Mapping
+
+from tunelab.engine import Clock, SystemClock, trial_state
+from tunelab.errors import InputError, StudyStateError
+from tunelab.insight import ImportanceReport, Thresholds, TrialRecord, importance_table
+from tunelab.space import SpaceSpec
+from tunelab.store import Store, StudyRecord
+
+# Smallest score change worth tuning for, by metric (common practice, no source); None = relative.
+METRIC_TOLERANCE: dict[str, float | None] = {"roc_auc": 0.002, "accuracy": 0.002, "r2": 0.002,
+                                             "log_loss": None, "rmse": None, "mae": None}
+
+
+def study_importance(name: str, *, store: str | None = None, method: str = "fanova", family: str | None = None,
+                     tolerance: float | None = None, seed: int = 0) -> tuple[StudyRecord, ImportanceReport]:
+    """The importance table of a study's finished trials (complete, and pruned at the fidelity they reached)."""
+    if method not in ("fanova", "ped-anova"):
+        raise InputError(f"unknown importance method '{method}'", "use fanova or ped-anova")
+    with Store.open(store) as st:
+        record = st.get_study(name)
+        trials, distributions = _records(st, record)
+    if not any(t.state == "complete" for t in trials):
+        raise StudyStateError(f"study '{name}' has no finished trials yet, so nothing to rank",
+                              f"run more trials: tunelab resume {name} --extend 10m")
+    if family is not None and family not in _families(distributions):
+        raise InputError(f"study '{name}' has no family '{family}'",
+                         f"families are: {', '.join(_families(distributions)) or '(none)'}")
+    if tolerance is None:
+        tolerance = METRIC_TOLERANCE.get(record.metric)
+    report = importance_table(trials, distributions, direction=record.direction,  # type: ignore[arg-type]
+                              method=method, family=family,  # type: ignore[arg-type]
+                              thresholds=Thresholds(spread_tolerance=tolerance), seed=seed)
+    return record, report
+
+
+@dataclass
+class FreezeResult:
+    """The new phase: which parameters were frozen at which values, and why."""
+
+    study: str
+    phase: int
+    frozen: dict[str, Any]
+    reasons: dict[str, str]
+    first_trial: int
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+def freeze_parameters(name: str, assignments: Mapping[str, str], *, auto: bool = False, store: str | None = None,
+                      clock: Clock | None = None) -> FreezeResult:
+    """Attach a narrowed space to the study as a new phase; ``resume`` continues in it.
+
+    ``assignments`` maps parameter names to values as typed (``hist_gb.max_iter=300``); ``auto``
+    adds every parameter whose verdict is "freeze at VALUE" or "no measurable effect".
+    """
+    clock = clock or SystemClock()
+    if not assignments and not auto:
+        raise InputError("nothing to freeze", "name parameters as PARAM=VALUE, or pass --auto")
+    with Store.open(store) as st:
+        record = st.get_study(name)
+        phases = st.phases(record.id)
+        space = SpaceSpec.from_json(phases[-1].space_json)
+        original = SpaceSpec.from_json(phases[0].space_json)  # ranges to check values against
+    frozen: dict[str, Any] = {}
+    reasons: dict[str, str] = {}
+    for param, raw in assignments.items():
+        frozen[param] = _parse_value(original, param, raw)
+        reasons[param] = "set by hand"
+    if auto:
+        _, report = study_importance(name, store=store)
+        for row in report.rows:
+            if row.param in frozen or row.param == "family" or space.lookup(row.param) is None:
+                continue
+            if space.lookup(row.param).kind == "fixed":  # type: ignore[union-attr]
+                continue
+            if row.action in ("freeze", "no measurable effect") and row.best_value is not None:
+                frozen[row.param] = _plain(row.best_value)
+                reasons[row.param] = row.verdict
+    if not frozen:
+        raise StudyStateError(f"no parameter of study '{name}' can be frozen yet",
+                              "every parameter still matters, or more trials are needed (see `tunelab importance`)")
+    narrowed = space.freeze(frozen, reason="frozen after importance")
+    with Store.open(store) as st:
+        first = _trial_count(st, record)
+        why = "; ".join(f"{p}={frozen[p]} ({reasons[p]})" for p in frozen)
+        phase = st.add_phase(record.id, now=clock.now(), reason=f"froze {why}", space_json=narrowed.to_json(),
+                             first_trial=first)
+    return FreezeResult(record.name, phase, frozen, reasons, first)
+
+
+def _records(st: Store, record: StudyRecord) -> tuple[list[TrialRecord], dict[str, Any]]:
+    import optuna
+
+    study = optuna.load_study(study_name=record.name, storage=st.optuna_storage())
+    distributions: dict[str, Any] = {}
+    for phase in st.phases(record.id):  # earlier (wider) phases win
+        for key, dist in SpaceSpec.from_json(phase.space_json).distributions().items():
+            distributions.setdefault(key, dist)
+    trials = []
+    for t in study.get_trials(deepcopy=False):
+        state = trial_state(t)
+        if state in ("complete", "pruned") and t.value is not None:
+            params = {k: v for k, v in t.params.items() if k in distributions}
+            trials.append(TrialRecord(number=t.number, params=params, value=float(t.value), state=state))
+    return trials, distributions
+
+
+def _families(distributions: Mapping[str, Any]) -> list[str]:
+    fam = distributions.get("family")
+    if fam is not None:
+        return [str(c) for c in fam.choices]
+    return sorted({k.split(".", 1)[0] for k in distributions if "." in k and not k.startswith("prep.")})
+
+
+def _trial_count(st: Store, record: StudyRecord) -> int:
+    import optuna
+
+    return len(optuna.load_study(study_name=record.name, storage=st.optuna_storage()).get_trials(deepcopy=False))
+
+
+def _parse_value(space: SpaceSpec, param: str, raw: str) -> Any:
+    spec = space.lookup(param)
+    if spec is None:
+        known = ", ".join(sorted(space.distributions()))
+        raise InputError(f"unknown parameter '{param}'", f"parameters are: {known}")
+    try:
+        if spec.kind == "float":
+            value: Any = float(raw)
+        elif spec.kind == "int":
+            value = int(float(raw))
+        elif spec.kind == "categorical" or param == "family":
+            matches = [c for c in spec.choices if str(c) == raw]
+            if not matches:
+                raise InputError(f"'{raw}' is not a choice of {param}",
+                                 f"choices are: {', '.join(map(str, spec.choices))}")
+            return matches[0]
+        else:
+            return spec.value
+    except ValueError as exc:
+        raise InputError(f"'{raw}' is not a number, as {param} needs", f"give {param}=NUMBER") from exc
+    if spec.low is not None and not spec.low <= value <= spec.high:  # type: ignore[operator]
+        raise InputError(f"{param}={value} is outside its range [{spec.low}, {spec.high}]",
+                         "choose a value inside the searched range")
+    return value
+
+
+def _plain(value: Any) -> Any:
+    return value.item() if hasattr(value, "item") else value
