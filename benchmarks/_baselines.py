@@ -60,7 +60,9 @@ def predict(model: Pipeline, features: pd.DataFrame, task: str) -> Predictions:
     return Predictions(values=np.asarray(values).astype(str), proba=proba)
 
 
-def fit(config: dict[str, Any], features: pd.DataFrame, y: pd.Series, task: str, seed: int) -> Pipeline:
+def fit(
+    config: dict[str, Any], features: pd.DataFrame, y: pd.Series, task: str, seed: int
+) -> Pipeline:
     """Fit one config on the given rows, with convergence warnings silenced."""
     model = build_pipeline(config, task, features, seed)
     with warnings.catch_warnings():
@@ -161,7 +163,9 @@ def default_method(family: str) -> Callable[[Problem], Outcome]:
     return run
 
 
-def search_method(make_sampler: Callable[[int], optuna.samplers.BaseSampler]) -> Callable[[Problem], Outcome]:
+def search_method(
+    make_sampler: Callable[[int], optuna.samplers.BaseSampler],
+) -> Callable[[Problem], Outcome]:
     """A method that runs :func:`budgeted_search` with a sampler, then refits the best config."""
 
     def run(problem: Problem) -> Outcome:

@@ -3,8 +3,8 @@
 A searching method draws a step line through its incumbents (the best config by
 cross-validation at each moment, refitted on the training part and scored on the test part
 after the run; the test score never picks the incumbent, so the line can go down). A default,
-or a method that only reports its final model, draws one point. matplotlib is imported here only, and only when a plot
-is asked for.
+or a method that only reports its final model, draws one point. matplotlib is imported here
+only, and only when a plot is asked for.
 """
 
 from __future__ import annotations
@@ -40,7 +40,7 @@ def anytime_plot(records: list[dict[str, Any]], path: Path, budget_seconds: floa
             times = [point[0] for point in record["curve"]]
             scores = [point[1] for point in record["curve"]]
             colour = colours[record["method"]]
-            if len(times) == 1:
+            if record.get("n_trials") is None:  # one final model: a point
                 ax.plot(times, scores, "o", color=colour, label=record["method"])
             else:
                 ax.step(times + [max(times[-1], record["search_seconds"])],
@@ -52,7 +52,11 @@ def anytime_plot(records: list[dict[str, Any]], path: Path, budget_seconds: floa
         ax.set_ylabel(f"test {metric}")
     for ax in list(axes.flat)[len(datasets):]:
         ax.set_visible(False)
-    handles, labels = axes.flat[0].get_legend_handles_labels()
+    legend: dict[str, Any] = {}
+    for ax in axes.flat:
+        for handle, label in zip(*ax.get_legend_handles_labels()):
+            legend.setdefault(label, handle)
+    handles, labels = list(legend.values()), list(legend)
     fig.legend(handles, labels, loc="lower center", ncol=min(len(labels), 6), fontsize=8)
     fig.tight_layout(rect=(0, 0.06, 1, 1))
     path = Path(path)

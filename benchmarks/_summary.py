@@ -78,13 +78,17 @@ def friedman_p_value(oriented: pd.DataFrame) -> tuple[float, int, int]:
 
 
 def method_summary(oriented: pd.DataFrame, defaults: list[str]) -> pd.DataFrame:
-    """One row per method: mean rank, wins against the best default, mean normalised score."""
-    normalised = normalised_scores(oriented, defaults)
+    """One row per method: mean rank, wins against the best default, mean normalised score.
+
+    All three are taken over the datasets every method scored, so that every method is
+    judged on the same datasets; ``datasets scored`` shows where a method failed.
+    """
+    rows = complete_rows(oriented)
     summary = pd.DataFrame(
         {
-            "mean rank": mean_ranks(oriented),
-            "wins vs best default": wins_against_best_default(oriented, defaults),
-            "mean normalised score": normalised.mean(axis=0),
+            "mean rank": mean_ranks(rows),
+            "wins vs best default": wins_against_best_default(rows, defaults),
+            "mean normalised score": normalised_scores(rows, defaults).mean(axis=0),
             "datasets scored": oriented.notna().sum(axis=0),
         }
     )

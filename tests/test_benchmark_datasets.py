@@ -246,3 +246,17 @@ def test_baseline_methods_each_score_a_small_dataset_within_a_short_budget() -> 
         # Better than chance on OJ (ISLR's orange-juice purchase data): common practice, no source.
         assert 0.5 < record["score"] <= 1.0
     assert "Friedman test" in render(records)
+
+
+def test_report_still_renders_when_every_method_failed_on_a_dataset() -> None:
+    from benchmarks.suite import render
+
+    def record(dataset: str, method: str, score: float | None) -> dict[str, object]:
+        return {"dataset": dataset, "method": method, "metric": "rmse", "score": score,
+                "scores": {} if score is None else {"rmse": score}, "search_seconds": 1.0,
+                "over_budget_seconds": 0.0, "error": None if score else "boom"}
+
+    records = [record("a", m, s) for m, s in [("hgb_default", 2.0), ("tpe", 1.0)]]
+    records += [record("b", m, None) for m in ("hgb_default", "tpe")]
+    report = render(records)
+    assert "failed" in report and "1 *" in report

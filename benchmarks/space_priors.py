@@ -1,0 +1,232 @@
+"""Data-driven search space against the fixed generic one, same budget, same seed, side by side.
+
+For each dataset the same train/test split (``benchmarks/datasets.py``) is searched twice through
+tunelab's Python API, once with the fixed wide space (``tunelab.space.default_space``) and once
+with the space built from the data's meta-features (``tunelab.space.build_space``); each search
+then exports its best model, predicts the test rows, and the benchmark scores the predictions
+with scikit-learn's metrics (``benchmarks/_scoring.py``): ROC AUC for binary, log loss for
+multiclass, RMSE for regression.
+
+The built space pays for its own profiling: the seconds spent computing meta-features are taken
+off its search budget, so both arms spend the same wall-clock time.  The two arms alternate which
+runs first from one dataset to the next, so slow spells on a shared machine hit both alike.
+
+Usage (from the repository root)::
+
+    python benchmarks/space_priors.py                       # 60 s per search, ten datasets
+    python benchmarks/space_priors.py --budget 20s --datasets breast_cancer,wage
+    python benchmarks/space_priors.py --datasets all --seed 1
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+import tempfile
+import time
+import warnings
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+ROOT = Path(__file__).resolve().parents[1]
+if str(ROOT) not in sys.path:
+    sys.path.insert(0, str(ROOT))
+
+from benchmarks import datasets  # noqa: E402
+from benchmarks._scoring import PRIMARY_METRIC, Predictions, orient, score_predictions  # noqa: E402
+
+DEFAULT_DATASETS = ("breast_cancer", "titanic", "credit", "default", "digits", "chile", "hpc", "wage", "ames",
+                    "diamonds")
+ARMS = ("fixed", "built")
+LOSS_TOLERANCE = 0.01  # "loses by more than 1 % of score"
+
+
+@dataclass
+class ArmResult:
+    """One search on one dataset: its test score and what it did."""
+
+    arm: str
+    score: float | None
+    scores: dict[str, float] = field(default_factory=dict)
+    trials: dict[str, int] = field(default_factory=dict)
+    best_family: str = ""
+    cv_score: float | None = None
+    search_seconds: float = 0.0
+    profile_seconds: float = 0.0
+    families: list[str] = field(default_factory=list)
+    error: str = ""
+
+
+def _space_for(arm: str, train: Path, spec: datasets.DatasetSpec, budget: float, seed: int) -> tuple[Any, float]:
+    """The arm's space and the seconds spent building it (charged to the built arm only)."""
+    from tunelab.data import load_dataset
+    from tunelab.ops._profile import built_space
+    from tunelab.space import default_space
+
+    started = time.perf_counter()
+    dataset = load_dataset(train, spec.target, spec.task)
+    if arm == "fixed":
+        return default_space(dataset.task, dataset.roles), 0.0
+    space = built_space(dataset, budget_seconds=budget, seed=seed)
+    return space, time.perf_counter() - started
+
+
+def run_arm(arm: str, train: Path, test: Path, spec: datasets.DatasetSpec, budget: float, seed: int,
+            work: Path) -> ArmResult:
+    """Search with one arm's space, export the best model, predict and score the test rows."""
+    from tunelab.engine import Budget
+    from tunelab.ops import RunRequest, export_model, predict_file, run_study
+
+    result = ArmResult(arm, None)
+    try:
+        space, profile_s = _space_for(arm, train, spec, budget, seed)
+        result.profile_seconds = profile_s
+        result.families = list(space.families)
+        space_file = work / f"space-{arm}.json"
+        space_file.write_text(space.to_json(), encoding="utf-8")
+        store = str(work / f"store-{arm}.db")
+        started = time.perf_counter()
+        run = run_study(RunRequest(data=train, target=spec.target, budget=Budget(max(1.0, budget - profile_s)),
+                                   store=store, study=arm, task=spec.task, seed=seed, space_file=space_file))
+        result.search_seconds = time.perf_counter() - started
+        result.trials = dict(run.summary.counts)
+        result.cv_score = run.summary.best_value
+        model = work / f"model-{arm}.zip"
+        exported = export_model(arm, model, store=store)
+        result.best_family = exported.family
+        predictions = work / f"pred-{arm}.csv"
+        predict_file(model, test, predictions)
+        result.scores = _score(spec, test, predictions)
+        result.score = result.scores[PRIMARY_METRIC[spec.task]]
+    except Exception as exc:  # one failed arm is a result (a loss), not the end of the benchmark
+        result.error = f"{type(exc).__name__}: {exc}".splitlines()[0]
+    return result
+
+
+def _score(spec: datasets.DatasetSpec, test: Path, predictions: Path) -> dict[str, float]:
+    truth = pd.read_csv(test)[spec.target]
+    frame = pd.read_csv(predictions)
+    proba = None
+    if spec.is_classification:
+        cols = [c for c in frame.columns if c.startswith("proba_")]
+        proba = frame[cols].rename(columns=lambda c: c[len("proba_"):])
+    return score_predictions(spec.task, truth, Predictions(frame["prediction"].to_numpy(), proba))
+
+
+def compare(name: str, budget: float, seed: int) -> dict[str, Any]:
+    """Both arms on one dataset; the arm order alternates with the dataset's position."""
+    spec = datasets.get(name)
+    order = ARMS if datasets.names().index(name) % 2 == 0 else ARMS[::-1]
+    with tempfile.TemporaryDirectory(prefix=f"space-priors-{name}-") as tmp:
+        work = Path(tmp)
+        train, test = datasets.write_split(name, work, seed=seed)
+        results = {arm: run_arm(arm, train, test, spec, budget, seed, work) for arm in order}
+    return {"dataset": name, "task": spec.task, "metric": PRIMARY_METRIC[spec.task],
+            "arms": {arm: vars(results[arm]) for arm in ARMS}}
+
+
+def _relative_gain(metric: str, built: float | None, fixed: float | None) -> float | None:
+    """Built minus fixed as a share of the fixed score, turned so that positive is better."""
+    if built is None or fixed is None:
+        return None
+    return (orient(metric, built) - orient(metric, fixed)) / max(abs(fixed), 1e-12)
+
+
+def summarise(rows: list[dict[str, Any]]) -> dict[str, Any]:
+    """Mean rank (1 = best, ties shared), wins, and losses beyond the tolerance."""
+    ranks = {arm: [] for arm in ARMS}
+    wins = losses_beyond = ties = 0
+    for row in rows:
+        metric = row["metric"]
+        scores = {arm: row["arms"][arm]["score"] for arm in ARMS}
+        oriented = {arm: (orient(metric, s) if s is not None else float("-inf")) for arm, s in scores.items()}
+        if oriented["built"] == oriented["fixed"]:
+            ties += 1
+            ranks["built"].append(1.5)
+            ranks["fixed"].append(1.5)
+        else:
+            better = "built" if oriented["built"] > oriented["fixed"] else "fixed"
+            ranks[better].append(1.0)
+            ranks["fixed" if better == "built" else "built"].append(2.0)
+            wins += better == "built"
+        gain = _relative_gain(metric, scores["built"], scores["fixed"])
+        row["relative_gain"] = gain
+        if gain is None and scores["built"] is None or gain is not None and gain < -LOSS_TOLERANCE:
+            losses_beyond += 1
+    n = len(rows)
+    return {"datasets": n, "mean_rank": {arm: sum(r) / n for arm, r in ranks.items()} if n else {},
+            "built_wins": wins, "ties": ties, "built_win_share": wins / n if n else 0.0,
+            "built_losses_beyond_1pct": losses_beyond}
+
+
+def _fmt(value: float | None) -> str:
+    return "—" if value is None else f"{value:.4f}"
+
+
+def print_table(rows: list[dict[str, Any]], summary: dict[str, Any]) -> None:
+    head = (f"{'dataset':14s} {'task':10s} {'metric':8s} {'fixed':>8s} {'built':>8s} {'gain %':>7s} "
+            f"{'trials f/b':>10s} {'best family f/b':27s} {'prof s':>6s}  built families")
+    print(head)
+    print("-" * len(head))
+    for row in rows:
+        f, b = row["arms"]["fixed"], row["arms"]["built"]
+        gain = row.get("relative_gain")
+        trials = f"{sum(f['trials'].values())}/{sum(b['trials'].values())}"
+        fams = f"{f['best_family'] or '—'}/{b['best_family'] or '—'}"
+        print(f"{row['dataset']:14s} {row['task']:10s} {row['metric']:8s} {_fmt(f['score']):>8s} "
+              f"{_fmt(b['score']):>8s} {'—' if gain is None else f'{100 * gain:+.2f}':>7s} {trials:>10s} "
+              f"{fams:27s} {b['profile_seconds']:6.1f}  {','.join(b['families'])}")
+        for arm in ARMS:
+            if row["arms"][arm]["error"]:
+                print(f"    {arm} failed: {row['arms'][arm]['error']}")
+    print()
+    print(f"datasets: {summary['datasets']}   mean rank  fixed {summary['mean_rank'].get('fixed', 0):.2f}  "
+          f"built {summary['mean_rank'].get('built', 0):.2f}")
+    print(f"built wins {summary['built_wins']} of {summary['datasets']} ({summary['built_win_share']:.0%}), "
+          f"ties {summary['ties']}, losses by more than {LOSS_TOLERANCE:.0%}: {summary['built_losses_beyond_1pct']}")
+
+
+def main(argv: list[str] | None = None) -> int:
+    from tunelab.engine import parse_duration
+
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--budget", default="60s", help="search budget per arm and dataset (default 60s)")
+    parser.add_argument("--datasets", default=",".join(DEFAULT_DATASETS),
+                        help="comma-separated names from benchmarks/datasets.py, or 'all'")
+    parser.add_argument("--seed", type=int, default=0, help="split and search seed (default 0)")
+    parser.add_argument("--results-dir", default=str(ROOT / "benchmarks" / "results"))
+    args = parser.parse_args(argv)
+    budget = parse_duration(args.budget)
+    names = datasets.names() if args.datasets == "all" else [n.strip() for n in args.datasets.split(",") if n.strip()]
+    for name in names:
+        datasets.get(name)  # fail early on a bad name
+    warnings.simplefilter("ignore")
+    started = datetime.now(timezone.utc)
+    rows = []
+    for name in names:
+        t0 = time.perf_counter()
+        rows.append(compare(name, budget, args.seed))
+        arms = rows[-1]["arms"]
+        print(f"[{name}] fixed {_fmt(arms['fixed']['score'])}  built {_fmt(arms['built']['score'])}  "
+              f"({time.perf_counter() - t0:.0f} s)", flush=True)
+    summary = summarise(rows)
+    print()
+    print_table(rows, summary)
+    out_dir = Path(args.results_dir)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    stamp = started.strftime("%Y%m%dT%H%M%SZ")
+    out = out_dir / f"space_priors-{args.budget}-{stamp}.json"
+    out.write_text(json.dumps({"budget": args.budget, "budget_seconds": budget, "seed": args.seed,
+                               "started": started.isoformat(), "rows": rows, "summary": summary}, indent=2,
+                              default=str), encoding="utf-8")
+    print(f"\nresults: {out}")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
