@@ -54,8 +54,13 @@ def default_space(task: str, roles: Mapping[str, str]) -> SpaceSpec:
         params["prep.text_features"] = _i(500, 20000, log=True, reason="TF-IDF vocabulary size")
         params["prep.text_components"] = _i(8, 128, log=True, reason="SVD components of the text for tree models")
     families = default_families(task)
-    warm = ({"family": "hist_gb", **{f"hist_gb.{k}": v for k, v in {
-        "learning_rate": 0.1, "max_iter": 200, "max_leaf_nodes": 31, "min_samples_leaf": 20,
-        "l2_regularization": 1e-6, "max_features": 1.0}.items()}},)
+    # Cheap first, so even a short box ends with a finished trial; then the strong default.
+    penalty = "linear.alpha" if task == "regression" else "linear.C"
+    warm = (
+        {"family": "linear", "linear.num_transform": "standard", penalty: 1.0},
+        {"family": "hist_gb", **{f"hist_gb.{k}": v for k, v in {
+            "learning_rate": 0.1, "max_iter": 100, "max_leaf_nodes": 31, "min_samples_leaf": 20,
+            "l2_regularization": 1e-6, "max_features": 1.0}.items()}},
+    )
     return SpaceSpec(params=params, families=families, warm_starts=warm,
                      family_reason="generic space: all four families, no priors")

@@ -1,0 +1,49 @@
+"""The shell surface: every verb teaches through --help and appears in the README; the package exports what it says."""
+
+from __future__ import annotations
+
+import importlib
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from tunelab.cli import app
+
+ROOT = Path(__file__).resolve().parents[1]
+VERBS = sorted(c.name or c.callback.__name__ for c in app.registered_commands)
+
+
+def test_the_design_verbs_exist():
+    assert {"run", "resume", "status", "export", "predict", "importance", "freeze", "worker"} <= set(VERBS)
+
+
+@pytest.mark.parametrize("verb", VERBS)
+def test_every_verb_has_help_text_and_is_in_the_readme(cli, verb):
+    result = cli(verb, "--help")
+    assert result.code == 0
+    assert len(result.out.splitlines()) > 5
+    assert f"tunelab {verb}" in (ROOT / "README.md").read_text()
+
+
+def test_help_starts_fast_without_heavy_imports():
+    code = ("import sys; from tunelab.cli import app; "
+            "print(','.join(m for m in ('torch', 'sklearn', 'optuna') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.strip()
+    assert out == ""
+
+
+@pytest.mark.parametrize("module", ["tunelab.data", "tunelab.space", "tunelab.models", "tunelab.engine",
+                                    "tunelab.store", "tunelab.insight", "tunelab.ops"])
+def test_public_modules_export_exactly_what_they_list(module):
+    mod = importlib.import_module(module)
+    for name in mod.__all__:
+        assert hasattr(mod, name), f"{module}.{name} is listed but missing"
+
+
+def test_no_color_is_respected(cli, store_path, small_csv, monkeypatch):
+    monkeypatch.setenv("NO_COLOR", "1")
+    cli("run", str(small_csv), "--target", "y", "--trials", "1", "--store", str(store_path), "-q")
+    result = cli("status", "--store", str(store_path))
+    assert "\x1b[" not in result.out
