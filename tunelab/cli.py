@@ -94,7 +94,7 @@ def _progress_hooks(metric_holder: dict[str, Any], quiet: bool) -> tuple[Any, An
     def announce(start: Any) -> None:
         if quiet:
             return
-        verb = "resuming" if start.resumed else "study"
+        verb = start.verb
         budget = start.budget
         box = "-" if budget.wall_seconds is None else r.format_duration(budget.wall_seconds)
         r.err.print(f"{verb} {start.study} · store {start.store} · {start.rows} rows × {start.columns} columns · "

@@ -72,6 +72,7 @@ class SearchSettings:
 
     heartbeat_interval: float | None = 2.0
     stale_after: float = 30.0
+    recovery_interval: float = 2.0  # how often a launch looks for dead workers' trials to re-queue
     started: float | None = None  # when the user's launch began (process start), if before this call
     phase: int = 1
     kind: str = "run"
@@ -143,7 +144,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
     counts = {"complete": 0, "pruned": 0, "failed": 0, "interrupted": 0}
     state = "finished"
     trial = None
-    next_recovery = clock.now() + settings.stale_after / 3
+    next_recovery = clock.now() + settings.recovery_interval
     try:
         while True:
             if clock.now() >= next_recovery:  # another worker may have died: re-queue its trials
@@ -151,7 +152,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
                                 phase=settings.phase, own_launch=launch_id)
                 summary.recovered += found.interrupted
                 summary.requeued += found.requeued
-                next_recovery = clock.now() + settings.stale_after / 3
+                next_recovery = clock.now() + settings.recovery_interval
             finished_total = store.count_finished(record.name) if budget.trials is not None else 0
             reason = _stop_reason(clock.now(), deadline, left_cpu, heartbeat, budget.trials, finished_total,
                                   durations)

@@ -68,6 +68,7 @@ class StudyStart:
     spent_wall: float
     notes: list[str] = field(default_factory=list)
     resumed: bool = False
+    verb: str = "study"
 
 
 @dataclass
@@ -176,7 +177,9 @@ def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, spa
     spent_wall, _ = store.spent(record.id)
     if announce is not None:
         announce(StudyStart(record.name, store.location.display(), dataset.n_rows, dataset.X.shape[1],
-                            record.task, record.metric, record.direction, budget, spent_wall, notes, resumed))
+                            record.task, record.metric, record.direction, budget, spent_wall, notes, resumed,
+                            {"run": "study", "resume": "resuming", "worker": "joining"}.get(
+                                settings.kind if settings else "run", "study")))
     # One thread per trial: OpenMP pools spin-wait, and on a shared or busy machine two-thread
     # fits measured 10-17x slower than one-thread fits here. Parallelism comes from --jobs.
     threads = THREADS_PER_TRIAL

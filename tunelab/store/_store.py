@@ -388,13 +388,18 @@ def _sqlite_pragmas(dbapi_conn: Any, _record: Any) -> None:
 
 
 def _pid_alive(pid: int) -> bool:
+    """Whether a process on this host is alive; a zombie (killed, not yet reaped) counts as dead."""
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
         return False
     except PermissionError:
         return True
-    return True
+    try:
+        with open(f"/proc/{pid}/stat") as handle:
+            return handle.read().rsplit(")", 1)[1].split()[0] != "Z"
+    except (OSError, IndexError):
+        return True
 
 
 def _study(row: Any) -> StudyRecord:
