@@ -209,3 +209,15 @@ def test_unknown_metric_for_the_task_is_refused(cli, small_csv, store_path):
 def test_debug_shows_the_traceback(cli, small_csv, store_path):
     with pytest.raises(Exception):
         cli("--debug", "run", str(small_csv), "--target", "nope", "--budget", "5s", "--store", str(store_path))
+
+
+@pytest.mark.parametrize("case", list(BAD_FILES))
+def test_profile_refuses_the_same_bad_files_in_one_line(case, tmp_path, cli):
+    name, content, expected = BAD_FILES[case]
+    line = one_line_error(cli("profile", str(write(tmp_path, name, content)), "--target", "y"))
+    assert expected in line
+
+
+def test_profile_refuses_a_missing_target_and_a_bad_budget(cli, small_csv):
+    assert "is not in the data" in one_line_error(cli("profile", str(small_csv), "--target", "nope"))
+    assert "budget" in one_line_error(cli("profile", str(small_csv), "--target", "y", "--budget", "0"))

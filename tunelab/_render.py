@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import os
 import sys
 from typing import Any
 
@@ -12,7 +13,9 @@ from rich.table import Table
 
 from tunelab.engine import Progress, format_duration
 
-out = Console(highlight=False, soft_wrap=True)
+# Piped output (files, CI logs) gets room for the tables instead of the 80-column fallback.
+_PIPE_WIDTH = None if sys.stdout.isatty() or os.environ.get("COLUMNS") else 140
+out = Console(highlight=False, soft_wrap=True, width=_PIPE_WIDTH)
 err = Console(stderr=True, highlight=False, soft_wrap=True)
 
 
@@ -157,3 +160,55 @@ def print_importance(record: Any, report: Any) -> None:
             out.print(f"note: {group.message}")
     if not report.enough_trials:
         out.print(f"about {report.trials_needed} more trials would make this table stable")
+
+
+def _range(spec: dict[str, Any]) -> str:
+    kind = spec["kind"]
+    if kind in ("float", "int"):
+        scale = ", log" if spec.get("log") else ""
+        return f"{spec['low']:g} … {spec['high']:g}{scale}"
+    if kind == "categorical":
+        return " | ".join(map(str, spec["choices"]))
+    return f"= {spec['value']}"
+
+
+def print_profile(report: Any) -> None:
+    out.print(f"[bold]{report.path}[/bold] · target {report.target} · {report.task} · {report.n_rows} rows · "
+              f"profiled in {report.seconds:.1f}s")
+    for note in report.notes:
+        out.print(f"note: {note}")
+    table = Table(title="columns", title_justify="left", header_style="bold")
+    for name, justify in (("column", "left"), ("role", "left"), ("distinct", "right"), ("missing", "right"),
+                          ("treatment", "left")):
+        table.add_column(name, justify=justify)  # type: ignore[arg-type]
+    for c in report.columns:
+        role = c.role + (f" ({c.mean_tokens:.1f} words)" if c.mean_tokens else "")
+        table.add_row(c.name, role, str(c.n_unique), f"{c.missing_share:.0%}", c.treatment)
+    out.print(table)
+    meta = report.meta.to_dict()
+    for group, values in meta.items():
+        if not isinstance(values, dict):
+            continue
+        parts = []
+        for key, value in values.items():
+            if isinstance(value, float):
+                parts.append(f"{key} {value:.3g}")
+            elif isinstance(value, (int, str)) or value is None:
+                parts.append(f"{key} {value if value is not None else '-'}")
+        if parts:
+            out.print(f"[bold]{group}[/bold]: " + " · ".join(parts))
+    space = report.space.to_dict()
+    table = Table(title="search space", title_justify="left", header_style="bold")
+    for name in ("parameter", "range", "why"):
+        table.add_column(name)
+    if space.get("family_reason"):
+        table.add_row("family", " | ".join(space["families"]), space["family_reason"])
+    for name, spec in space["params"].items():
+        table.add_row(name, _range(spec), spec.get("reason", ""))
+    for family, fspec in space["families"].items():
+        table.add_row(f"[bold]{family}[/bold]", "", fspec.get("reason", ""))
+        for name, spec in fspec["params"].items():
+            table.add_row(f"  {family}.{name}", _range(spec), spec.get("reason", ""))
+    out.print(table)
+    for note in space.get("notes", []):
+        out.print(f"• {note}")

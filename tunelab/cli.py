@@ -297,6 +297,38 @@ def predict(
 
 
 @app.command()
+def profile(
+    data: Path = typer.Argument(..., help="CSV or Parquet file."),
+    target: str = typer.Option(..., "--target", "-t", help="Column to predict."),
+    task: Optional[str] = typer.Option(None, "--task", help="binary, multiclass or regression. [default: inferred]"),
+    budget: Optional[str] = typer.Option(None, "--budget", "-b", help="Plan the search space for this budget, e.g. 10m."),
+    write_space: Optional[Path] = typer.Option(None, "--write-space", help="Write the search space JSON here "
+                                                                             "(edit it, then pass it to run --space)."),
+    seed: int = SeedOpt,
+    json_out: bool = JsonOpt,
+) -> None:
+    """Describe a data file: column roles, meta-features, and the search space `run` would build, with reasons.
+
+    Example: tunelab profile sales.csv --target churned --budget 30m --write-space space.json
+    """
+    from tunelab import _render as r
+    from tunelab.engine import parse_duration
+    from tunelab.ops import profile_data
+
+    seconds = parse_duration(budget) if budget else None
+    report = profile_data(data, target, task, budget_seconds=seconds, seed=seed)
+    if write_space is not None:
+        write_space.write_text(report.space.to_json() + "\n", encoding="utf-8")
+    if json_out:
+        r.emit_json(report.to_dict())
+        return
+    r.print_profile(report)
+    if write_space is not None:
+        r.out.print(f"wrote the search space to {write_space}; use it with: tunelab run {data} --target {target} "
+                    f"--space {write_space}")
+
+
+@app.command()
 def importance(
     study: str = typer.Argument(..., help="Study whose finished trials to analyse."),
     method: str = typer.Option("fanova", "--method", help="fanova (variance shares) or ped-anova (what the top trials share)."),
