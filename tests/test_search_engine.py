@@ -114,3 +114,20 @@ def test_pruned_trials_keep_the_step_they_reached(store_path):
     pruned = [t for t in study.trials if t.state == optuna.trial.TrialState.PRUNED]
     assert all(t.user_attrs["fidelity"].startswith("step ") for t in pruned)
     assert all(math.isfinite(t.value) for t in pruned)
+
+
+def test_a_cpu_budget_stops_the_search_when_cpu_seconds_run_out(store_path):
+    import time
+
+    def burn(config, report):
+        end = time.process_time() + 0.05
+        while time.process_time() < end:
+            pass
+        return TrialResult(config["x"])
+
+    result = run_objective_study("cpu", burn, SPACE, Budget(3600, cpu_seconds=1.0), store=str(store_path),
+                                 settings=settings())
+    assert result.summary.stop_reason == "CPU budget spent"
+    with Store.open(str(store_path)) as st:
+        _, cpu = st.spent(st.get_study("cpu").id)
+    assert 1.0 <= cpu < 1.5
