@@ -140,6 +140,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
     summary.launch_id = launch_id
     deadline = None if left_wall is None else now + left_wall
     heartbeat = _Heartbeat(store, launch_id, clock, started, settings.heartbeat_interval, runner)
+    heartbeat.beat()  # start-up time (imports, loading) is already spent: record it before the first trial
     durations: dict[str, list[float]] = _past_durations(study)
     counts = {"complete": 0, "pruned": 0, "failed": 0, "interrupted": 0}
     state = "finished"
