@@ -23,9 +23,14 @@ PG_ADMIN_URL = os.environ.get("TUNELAB_TEST_POSTGRES", "postgresql://127.0.0.1:5
 TUNELAB = [sys.executable, "-m", "tunelab"]
 
 
+def _driver_url(url: str) -> str:
+    """SQLAlchemy 2.1 reads postgresql:// as psycopg 3; tunelab ships psycopg2 (its store rewrites the same way)."""
+    return url.replace("postgresql://", "postgresql+psycopg2://", 1)
+
+
 def _pg_available() -> bool:
     try:
-        with create_engine(PG_ADMIN_URL, connect_args={"connect_timeout": 3}).connect() as conn:
+        with create_engine(_driver_url(PG_ADMIN_URL), connect_args={"connect_timeout": 3}).connect() as conn:
             conn.execute(text("select 1"))
         return True
     except Exception:
@@ -37,7 +42,7 @@ def pg_url():
     if not _pg_available():
         pytest.fail(f"PostgreSQL is not reachable at {PG_ADMIN_URL}; this machine should start it")
     name = f"tl_{uuid.uuid4().hex[:12]}"
-    admin = create_engine(PG_ADMIN_URL, isolation_level="AUTOCOMMIT")
+    admin = create_engine(_driver_url(PG_ADMIN_URL), isolation_level="AUTOCOMMIT")
     with admin.connect() as conn:
         conn.execute(text(f'create database "{name}"'))
     url = PG_ADMIN_URL.rsplit("/", 1)[0] + "/" + name
@@ -61,7 +66,7 @@ _ENGINES: dict[str, object] = {}
 def _engine(store: str):
     """One engine per store for polling (opening a Store per poll is too slow on a busy machine)."""
     if store not in _ENGINES:
-        url = store if "://" in store else f"sqlite:///{store}"
+        url = _driver_url(store) if "://" in store else f"sqlite:///{store}"
         _ENGINES[store] = create_engine(url)
     return _ENGINES[store]
 

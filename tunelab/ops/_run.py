@@ -158,7 +158,8 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
         phases = st.phases(record.id)
         space = SpaceSpec.from_json(phases[-1].space_json)
         launches = len(st.launches(record.id))
-        study = _optuna_study(st, record, launch_number=launches, expected_trials=None, create=False)
+        study = _optuna_study(st, record, launch_number=launches, expected_trials=None, create=False,
+                              salt=os.getpid() if kind == "worker" else 0)
         settings = settings or SearchSettings()
         settings.phase = phases[-1].number
         settings.kind = kind
@@ -206,10 +207,15 @@ def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, spa
 
 
 def _optuna_study(store: Store, record: StudyRecord, *, launch_number: int, expected_trials: float | None,
-                  create: bool) -> Any:
+                  create: bool, salt: int = 0) -> Any:
+    """Load (or create) the optuna study with a seeded sampler.
+
+    ``salt`` separates the random streams of workers that join at the same moment (they would
+    otherwise see the same launch count and draw the same start-up configs).
+    """
     import optuna
 
-    sampler = make_sampler(record.settings.get("sampler", "tpe"), record.seed + launch_number)
+    sampler = make_sampler(record.settings.get("sampler", "tpe"), (record.seed + launch_number + salt) % (2**32))
     n_folds = int(record.settings.get("n_folds", 5))
     pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds, expected_trials=expected_trials)
     optuna.logging.set_verbosity(optuna.logging.WARNING)  # tunelab reports study creation itself
@@ -287,7 +293,7 @@ def join_objective_study(name: str, objective: Any, *, store: str | None = None,
         space = SpaceSpec.from_json(st.phases(record.id)[-1].space_json)
         budget = Budget(record.budget_wall, record.budget_cpu, record.budget_trials)
         study = _optuna_study(st, record, launch_number=len(st.launches(record.id)), expected_trials=None,
-                              create=False)
+                              create=False, salt=os.getpid() if kind == "worker" else 0)
         settings = settings or SearchSettings()
         settings.kind = kind
         runner = (runner_factory or InProcessRunner)(objective)
