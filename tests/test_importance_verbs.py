@@ -49,10 +49,23 @@ def two_family(config, report):
     return TrialResult(1.0 + 0.01 * config["b.k"])
 
 
-@pytest.fixture
-def two_family_store(store_path):
-    run_objective_study("fam", two_family, two_family_space(), Budget(trials=200), store=str(store_path),
+@pytest.fixture(scope="module")
+def two_family_template(tmp_path_factory):
+    path = tmp_path_factory.mktemp("fam") / "fam.db"
+    run_objective_study("fam", two_family, two_family_space(), Budget(trials=200), store=str(path),
                         sampler="random", seed=1, clock=FakeClock(), settings=SearchSettings(heartbeat_interval=None))
+    return path
+
+
+@pytest.fixture
+def two_family_store(two_family_template, store_path):
+    """A private copy of a 200-trial two-family study (tests add phases to it)."""
+    import shutil
+    import sqlite3
+
+    with sqlite3.connect(two_family_template) as conn:
+        conn.execute("pragma wal_checkpoint(truncate)")
+    shutil.copy(two_family_template, store_path)
     return store_path
 
 
