@@ -14,15 +14,19 @@ same kind of value for every family.  Here a step is a unit of work — one thir
 step                        value reported
 ==========================  ========================================================
 1, 2                        within the first fold, after 1/3 and 2/3 of the model's
-                            training (boosting rounds for gradient boosting, epochs for
-                            the MLP): the metric on the first fold's held-out rows
+                            training (boosting rounds, trees of a forest, epochs of the
+                            MLP): the metric on the first fold's held-out rows
 3                           the first fold fully fitted: its held-out score
 3·f (f = 2 … k-1)           after fold f: the mean of the held-out scores of folds 1 … f
 ==========================  ========================================================
 
-Families whose fit cannot be cut into parts (forests, linear models, k-NN, SVM) first report at
-step 3.  Because step numbers count work, a pruner's rungs placed at steps 1, 3, 9 mean "a third
-of a fold, one fold, three folds" for every family.  The last fold is not reported: the trial is
+Families whose fit cannot be cut into parts (linear models, k-NN, SVM) first report at step 3.
+Because step numbers count work, a pruner's rungs placed at steps 1, 3, 9 mean "a third of a
+fold, one fold, three folds" for every family.  How far a third of the training takes a model
+along its learning curve differs between families (a third of a forest's trees is nearly the
+whole forest; a third of the boosting rounds is not), so the pruners in ``_pruning.py`` compare
+steps below ``STEPS_PER_FOLD`` only within one family; from step 3 on, every value is a fully
+fitted model's held-out score and all families are compared.  The last fold is not reported: the trial is
 then complete, and pruning it would only throw its result away.  Losses on other scales (the
 MLP's inner validation loss, training loss) are never reported.
 """
@@ -157,16 +161,18 @@ def fit_in_parts(pipeline: Any, X_train: Any, y_train: np.ndarray, X_test: Any, 
                  report: Report) -> float:
     """Fit the first fold, reporting the held-out score at steps 1 … STEPS_PER_FOLD-1 where the model allows.
 
-    Gradient boosting is grown in chunks with ``warm_start`` (the same model a single fit gives);
-    the MLP is scored on the held-out rows at epochs 1/3 and 2/3 of ``max_epochs``.  Any other
-    model is fitted once.  Returns the fully fitted model's held-out score.
+    Ensembles are grown in chunks with ``warm_start`` — boosting rounds for gradient boosting,
+    trees for forests — which gives the same model as a single fit; the MLP is scored on the
+    held-out rows at epochs 1/3 and 2/3 of ``max_epochs``.  Any other model is fitted once.
+    Returns the fully fitted model's held-out score.
     """
     model = pipeline.steps[-1][1]
-    if _is_boosting(model) and int(model.max_iter) >= STEPS_PER_FOLD:
+    size = _growth_parameter(model)
+    if size is not None and int(getattr(model, size)) >= STEPS_PER_FOLD:
         prep = pipeline[:-1]
         Xt_train = prep.fit_transform(X_train, y_train)
         Xt_test = prep.transform(X_test)
-        _boost_in_chunks(model, Xt_train, y_train, Xt_test, held_out, report)
+        _grow_in_chunks(model, size, Xt_train, y_train, Xt_test, held_out, report)
         return held_out.score(model, Xt_test)
     if _is_torch_mlp(model):
         live = _watching(model)
@@ -185,23 +191,30 @@ def chunk_ends(total: int, parts: int = STEPS_PER_FOLD) -> list[int]:
     return [math.ceil(total * k / parts) for k in range(1, parts + 1)]
 
 
-def _is_boosting(model: Any) -> bool:
-    from sklearn.ensemble import HistGradientBoostingClassifier, HistGradientBoostingRegressor
+def _growth_parameter(model: Any) -> str | None:
+    """The parameter that ``warm_start`` grows for this model, or None if it cannot be grown."""
+    from sklearn import ensemble
 
-    return isinstance(model, (HistGradientBoostingClassifier, HistGradientBoostingRegressor))
+    if isinstance(model, (ensemble.HistGradientBoostingClassifier, ensemble.HistGradientBoostingRegressor)):
+        return "max_iter"
+    forests = (ensemble.RandomForestClassifier, ensemble.RandomForestRegressor,
+               ensemble.ExtraTreesClassifier, ensemble.ExtraTreesRegressor)
+    return "n_estimators" if isinstance(model, forests) else None
 
 
-def _boost_in_chunks(model: Any, X: Any, y: np.ndarray, X_test: Any, held_out: _HeldOut, report: Report) -> None:
-    # scikit-learn keeps the seeds of the first call when warm-starting, so growing the same
-    # model to max_iter in chunks gives the trees one fit would (checked in tests/test_pruning.py).
-    total = int(model.max_iter)
+def _grow_in_chunks(model: Any, size: str, X: Any, y: np.ndarray, X_test: Any, held_out: _HeldOut,
+                    report: Report) -> None:
+    # scikit-learn keeps the seeds of the first call when warm-starting (boosting keeps its
+    # feature-subsampling generator, forests draw the same tree seeds), so growing a model to
+    # its full size in chunks gives the model one fit would (checked in tests/test_pruning.py).
+    total = int(getattr(model, size))
     ends = chunk_ends(total)
     model.set_params(warm_start=True)
     for step, end in enumerate(ends[:-1], start=1):
-        model.set_params(max_iter=end)
+        model.set_params(**{size: end})
         model.fit(X, y)
         report(step, held_out.score(model, X_test))
-    model.set_params(max_iter=total)
+    model.set_params(**{size: total})
     model.fit(X, y)
     model.set_params(warm_start=False)
 

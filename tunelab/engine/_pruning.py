@@ -1,73 +1,108 @@
-"""Choosing the pruner: from the user's wish, or from the expected trial count.
+"""Choosing the pruner, and two pruning rules that compare trials at equal steps only.
 
-Steps count work (see ``tunelab.engine._objective``: step 1 is a third of the first fold, step
-3 one fold, step 9 three folds), so the halving rungs sit at steps 1, 3, 9, … for every family.
+Steps count work (see ``tunelab.engine._objective``): step 1 is a third of the first fold,
+step 3 one fold, step 9 three folds.  Two things follow for a fair comparison:
 
-optuna's own halving pruners compare a trial, at a rung, with whatever value other trials had
-when they passed it — a forest that first reports after a whole fold would then be ranked
-against boosting models a third of the way through theirs.  :class:`RungPruner` compares only
-values reported *at the rung's own step*, so partly fitted models meet partly fitted models.
+* a trial is compared with the values other trials reported *at the same step* — optuna's own
+  halving pruners instead take whatever value a trial had when it passed a rung, so a model
+  that first reports after a whole fold would be ranked against models a third of the way
+  through theirs;
+* below one fold (steps 1 and 2) a partly fitted model is compared only with partly fitted
+  models of its own family, because a third of the training is a different point on each
+  family's learning curve.  From step 3 on, every value is a fully fitted fold's held-out
+  score, and all families meet.
+
+:class:`RungPruner` is asynchronous successive halving on that basis (``halving``, and
+``hyperband`` as three brackets of it); :class:`MedianPruner` is the median rule.  Both are
+stateless: everything they compare is in the store, so a resumed study prunes as before.
 """
 
 from __future__ import annotations
 
 import math
-from typing import Any
+import statistics
+from typing import Callable, Iterable
 
 import optuna
 from optuna.pruners import BasePruner
 from optuna.trial import FrozenTrial, TrialState
 
+from tunelab.engine._objective import STEPS_PER_FOLD
 from tunelab.errors import InputError
 
 PRUNING_CHOICES = ("auto", "off", "median", "halving", "hyperband")
 
-REDUCTION_FACTOR = 3  # keep the best third at each rung (common practice, no source)
-MIN_PEERS = 4  # values a rung needs before it prunes anything (common practice, no source)
+RUNG_FACTOR = 3  # rungs at a third of a fold, one fold, three folds: the reported steps 1, 3, 9
+KEEP = 0.5  # the better half goes on, as in successive halving (Jamieson & Talwalkar 2016; from memory)
+MIN_PEERS = 2  # a rung prunes once it holds another value to compare with (common practice, no source)
+MEDIAN_STARTUP = 5  # finished trials before the median rule prunes (common practice, no source)
 FEW_TRIALS = 10  # below this many expected trials there is too little to rank (common practice, no source)
 MEDIAN_UP_TO = 30  # up to this many, the gentler median rule (common practice, no source)
+
+
+def _maximise(study: optuna.Study) -> bool:
+    return study.direction == optuna.study.StudyDirection.MAXIMIZE
+
+
+def _peer_values(study: optuna.Study, trial: FrozenTrial, step: int, states: Iterable[TrialState],
+                 also: Callable[[FrozenTrial], bool] | None = None) -> list[float]:
+    """Values other trials reported at exactly ``step``; below one fold, from the same family only."""
+    family = trial.params.get("family")
+    values = []
+    for other in study.get_trials(deepcopy=False, states=tuple(states)):
+        if other.number == trial.number or (also is not None and not also(other)):
+            continue
+        if step < STEPS_PER_FOLD and other.params.get("family") != family:
+            continue
+        seen = other.intermediate_values.get(step)
+        if seen is not None and not math.isnan(seen):
+            values.append(seen)
+    return values
 
 
 class RungPruner(BasePruner):
     """Asynchronous successive halving at fixed steps, comparing equal steps only.
 
-    A trial that reports at a rung step (1, η, η², … with η the reduction factor) goes on only
-    if its value is within the best 1/η of all values reported at that same step so far, its
-    own included (trials of any state; in hyperband, trials of its bracket).  A rung with fewer
-    than ``min_peers`` values prunes nothing.  A NaN value is always pruned.
+    Rungs sit at steps 1, s, s², … (s = ``rung_factor``; with s = 3: a third of a fold, one
+    fold, three folds).  A trial that reports at a rung goes on only if its value is among the
+    best ``keep`` share — rounded up, so at least the best one — of all values reported at that
+    same step so far, its own included: by trials in any state, and in hyperband by trials of
+    its bracket.  A rung with fewer than ``min_peers`` values prunes nothing.  A NaN value is
+    always pruned.
+
+    Keeping half rather than the textbook third (1/s) costs some speed and protects a good
+    configuration from one unlucky fold while the population at a rung is still small
+    (measured in ``benchmarks/pruning.py``).
 
     Parameters
     ----------
-    reduction_factor
-        η: the share 1/η of a rung goes on to the next one.
+    rung_factor
+        Work grows by this factor from one rung to the next.
+    keep
+        Share of a rung that goes on (0 < keep < 1).
     min_peers
         Values a rung must hold, this trial's included, before it prunes.
-    first_rung
-        Index of the first rung that prunes (0 for step 1); hyperband's brackets start later.
     brackets
-        With more than one bracket, trial ``n`` belongs to bracket ``n % brackets`` and is
-        compared only within it (hyperband); the bracket sets ``first_rung``.
+        With more than one bracket (hyperband), trial ``n`` belongs to bracket ``b = n % brackets``,
+        is compared only within it, and is first judged at rung ``b``.
     """
 
-    def __init__(self, reduction_factor: int = REDUCTION_FACTOR, min_peers: int = MIN_PEERS,
-                 first_rung: int = 0, brackets: int = 1) -> None:
-        if reduction_factor < 2 or min_peers < 1 or first_rung < 0 or brackets < 1:
-            raise ValueError("reduction_factor >= 2, min_peers >= 1, first_rung >= 0 and brackets >= 1 are required")
-        self.reduction_factor = reduction_factor
+    def __init__(self, rung_factor: int = RUNG_FACTOR, keep: float = KEEP, min_peers: int = MIN_PEERS,
+                 brackets: int = 1) -> None:
+        if rung_factor < 2 or not 0.0 < keep < 1.0 or min_peers < 1 or brackets < 1:
+            raise ValueError("rung_factor >= 2, 0 < keep < 1, min_peers >= 1 and brackets >= 1 are required")
+        self.rung_factor = rung_factor
+        self.keep = keep
         self.min_peers = min_peers
-        self.first_rung = first_rung
         self.brackets = brackets
 
     def rung_of(self, step: int) -> int | None:
-        """The rung index of a step (step η^r is rung r), or None between rungs."""
+        """The rung index of a step (step s^r is rung r), or None between rungs."""
         rung, at = 0, 1
         while at < step:
-            at *= self.reduction_factor
+            at *= self.rung_factor
             rung += 1
         return rung if at == step else None
-
-    def _bracket(self, trial: FrozenTrial) -> int:
-        return trial.number % self.brackets
 
     def prune(self, study: optuna.Study, trial: FrozenTrial) -> bool:
         step = trial.last_step
@@ -77,27 +112,45 @@ class RungPruner(BasePruner):
         if math.isnan(value):
             return True
         rung = self.rung_of(step)
-        first = self.first_rung + (self._bracket(trial) if self.brackets > 1 else 0)
-        if rung is None or rung < first:
+        bracket = trial.number % self.brackets
+        if rung is None or rung < bracket:
             return False
-        bracket = self._bracket(trial)
-        values = [value]
-        for other in study.get_trials(deepcopy=False):
-            if other.number == trial.number or other.state == TrialState.WAITING:
-                continue
-            if self.brackets > 1 and self._bracket(other) != bracket:
-                continue
-            seen = other.intermediate_values.get(step)
-            if seen is not None and not math.isnan(seen):
-                values.append(seen)
+        same_bracket = None if self.brackets == 1 else (lambda t: t.number % self.brackets == bracket)
+        states = (TrialState.COMPLETE, TrialState.PRUNED, TrialState.RUNNING, TrialState.FAIL)
+        values = [value, *_peer_values(study, trial, step, states, same_bracket)]
         if len(values) < self.min_peers:
             return False
-        keep = max(1, len(values) // self.reduction_factor)
-        ranked = sorted(values, reverse=study.direction == optuna.study.StudyDirection.MAXIMIZE)
-        threshold = ranked[keep - 1]
-        if study.direction == optuna.study.StudyDirection.MAXIMIZE:
-            return value < threshold
-        return value > threshold
+        kept = max(1, math.ceil(len(values) * self.keep - 1e-9))
+        threshold = sorted(values, reverse=_maximise(study))[kept - 1]
+        return value < threshold if _maximise(study) else value > threshold
+
+
+class MedianPruner(BasePruner):
+    """Prune a trial whose value at a step is worse than the median of finished trials at that step.
+
+    Nothing is pruned before ``startup`` trials have finished, nor at a step fewer than
+    ``min_peers`` finished trials reported (below one fold: finished trials of the same family).
+    A NaN value is always pruned.
+    """
+
+    def __init__(self, startup: int = MEDIAN_STARTUP, min_peers: int = 3) -> None:
+        self.startup = startup
+        self.min_peers = min_peers
+
+    def prune(self, study: optuna.Study, trial: FrozenTrial) -> bool:
+        step = trial.last_step
+        if step is None:
+            return False
+        value = trial.intermediate_values[step]
+        if math.isnan(value):
+            return True
+        if len(study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,))) < self.startup:
+            return False
+        peers = _peer_values(study, trial, step, (TrialState.COMPLETE,))
+        if len(peers) < self.min_peers:
+            return False
+        median = statistics.median(peers)
+        return value < median if _maximise(study) else value > median
 
 
 def choose_pruning(expected_trials: float | None) -> str:
@@ -105,8 +158,10 @@ def choose_pruning(expected_trials: float | None) -> str:
 
     Ranking needs a population: with very few trials nothing is pruned; with a few dozen the
     median rule (prune what is worse than the median of finished trials at that step) is
-    gentle; with more, or when the count is unknown, successive halving, which makes each
-    trial's first third of a fold decide whether it gets a whole fold.
+    gentle; with more, or when the count is unknown, successive halving, which lets a third
+    of the first fold decide whether a model gets the whole fold, and one fold whether it
+    gets three.  ``tunelab run`` does not know the count yet when it builds the pruner, so
+    it gets halving.
     """
     if expected_trials is None:
         return "halving"
@@ -115,8 +170,8 @@ def choose_pruning(expected_trials: float | None) -> str:
     return "median" if expected_trials <= MEDIAN_UP_TO else "halving"
 
 
-def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: float | None = None) -> Any:
-    """An optuna pruner for ``kind`` (one of ``PRUNING_CHOICES``).
+def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: float | None = None) -> BasePruner:
+    """The pruner for ``kind`` (one of ``PRUNING_CHOICES``).
 
     Parameters
     ----------
@@ -142,8 +197,7 @@ def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: flo
     if kind == "off":
         return optuna.pruners.NopPruner()
     if kind == "median":
-        # Compared with finished trials at the same step; five of them before any pruning.
-        return optuna.pruners.MedianPruner(n_startup_trials=5, n_warmup_steps=0, n_min_trials=3)
+        return MedianPruner()
     if kind == "halving":
         return RungPruner()
     return RungPruner(brackets=3)

@@ -127,7 +127,8 @@ def profile_metafeatures(dataset: Dataset, *, seed: int = 0) -> MetaFeatures:
                                 max_rows=rows, time_cap_s=_LANDMARK_CAP_S)
 
 
-def built_space(dataset: Dataset, *, budget_seconds: float | None, seed: int = 0) -> SpaceSpec:
+def built_space(dataset: Dataset, *, budget_seconds: float | None, metric: str | None = None,
+                seed: int = 0) -> SpaceSpec:
     """The data-driven search space ``run`` uses when no ``--space`` file is given.
 
     Parameters
@@ -136,14 +137,17 @@ def built_space(dataset: Dataset, *, budget_seconds: float | None, seed: int = 0
         The loaded data.
     budget_seconds
         The study's wall-clock budget, or ``None``.
+    metric
+        The study's metric, or ``None`` for the task's default.
     seed
         Seeds the meta-feature subsamples.
     """
-    return build_space(dataset, profile_metafeatures(dataset, seed=seed), budget_seconds=budget_seconds)
+    return build_space(dataset, profile_metafeatures(dataset, seed=seed), budget_seconds=budget_seconds,
+                       metric=metric)
 
 
 def profile_data(path: str | Path, target: str, task: str | None = None, *,
-                 budget_seconds: float | None = None, seed: int = 0) -> ProfileReport:
+                 budget_seconds: float | None = None, metric: str | None = None, seed: int = 0) -> ProfileReport:
     """Load a data file, describe it, and build the search space ``run`` would use.
 
     Parameters
@@ -156,6 +160,8 @@ def profile_data(path: str | Path, target: str, task: str | None = None, *,
         ``binary``, ``multiclass`` or ``regression``; inferred from the target when ``None``.
     budget_seconds
         Plan the space for this wall-clock budget; ``None`` plans for a reference budget.
+    metric
+        Plan for this metric (as ``run --metric``); ``None`` means the task's default.
     seed
         Seeds the meta-feature subsamples.
 
@@ -171,8 +177,12 @@ def profile_data(path: str | Path, target: str, task: str | None = None, *,
     """
     started = time.perf_counter()
     dataset = load_dataset(Path(path), target, task)
+    if metric is not None:
+        from tunelab.engine import resolve_metric
+
+        metric = resolve_metric(metric, dataset.task).name  # the same refusal as run's
     meta = profile_metafeatures(dataset, seed=seed)
-    space = build_space(dataset, meta, budget_seconds=budget_seconds)
+    space = build_space(dataset, meta, budget_seconds=budget_seconds, metric=metric)
     tokens = meta.simple.mean_text_tokens
     columns = tuple(ColumnProfile(c.name, c.role, c.reason, c.n_unique, c.missing_share,
                                   tokens.get(c.name) if c.role == "text" else None, _treatment(c.role, c.n_unique,

@@ -13,7 +13,9 @@ hundred rows, where fixed set-up work dominates, so each family's estimate is mu
 correction measured against tunelab's own pipelines (see ``_CORRECTION``).
 
 TPE has no prior centre, so priors are expressed as warm starts: one config per family at the
-centre of its ranges, most promising family first, enqueued before any sampled trial.
+centre of its ranges, most promising family first, enqueued before any sampled trial; then, if
+the budget allows, a second boosting config in the other regime (usual settings or strongly
+regularised) than the one the landmarkers pointed to, as a hedge.
 """
 
 from __future__ import annotations
@@ -55,19 +57,29 @@ _SVM_REGRESSION_CORRECTION = 1.2  # no probability calibration for regression
 _FIT_OVERHEAD_S = 0.15  # per fold: building the pipeline, encoding, scoring; measured, rounded
 
 # Budget shares; common practice, no source.
-_TRIAL_SHARE_MAX = 0.25  # a trial at the top of a work knob's range: at least four trials fit
+_TRIAL_SHARE_MAX = 1 / 3  # a trial at the top of a work knob's range: at least three trials fit
 _SVM_SHARE_MAX = 0.10  # kernel SVM only where a fit is a small share (about 2 %) of the budget
 _KNN_SHARE_MAX = 0.10
 _MLP_SHARE = {"narrow": 0.06, "wide": 0.10, "very_wide": 0.10}  # several trials of the rung fit
 _MLP_MIN_ROWS = {"narrow": 500, "wide": 5_000, "very_wide": 20_000}  # rows to feed the rung
 _SVM_MAX_ROWS = 20_000  # kernel matrix grows with rows squared; common practice, no source
 _KNN_MAX_WIDTH = 50  # distances lose contrast in many dimensions; common practice, no source
+_WARM_SHARE = 0.5  # warm starts may plan up to half the budget; the rest is for the search
 _TRIALS_PER_FAMILY = 3  # trials at its centre each kept family must have room for
 _SKEW_HIGH = 1.0  # |skewness| above 1 is "highly skewed" (Bulmer 1979, Principles of Statistics; from memory)
 _IMBALANCE_HIGH = 3.0  # largest class over smallest; common practice, no source
+_NOISY_SIGNAL = 0.6  # best landmarker gain over guessing below this: a noisy target; no source
 _LANDMARK_CLOSE = 0.02  # landmarker gains within this of the best count as "as good"; no source
 _SCORE_FLOOR = 0.5  # a family whose points fall below this has the evidence against it; no source
 _GAP_WEIGHT = 5.0  # points lost per unit of landmarker gap (a gap of 0.1 costs half a point); no source
+
+# Boosting prior centres (common practice, no source): the library's usual settings, and a
+# regularised regime (slower steps, smaller trees, bigger leaves, more shrinkage) for noisy targets.
+# The warm starts try the regime the landmarkers point to first and the other one last.
+_HIST_GB_PRIORS: dict[str, dict[str, float]] = {
+    "standard": {"learning_rate": 0.1, "max_leaf_nodes": 31, "min_samples_leaf": 20, "l2_regularization": 1e-3},
+    "regularised": {"learning_rate": 0.05, "max_leaf_nodes": 15, "min_samples_leaf": 40, "l2_regularization": 1.0},
+}
 
 # The MLP's per-row cost model, relative only (the probe supplies the machine's speed): a fixed
 # cost per mini-batch plus work proportional to the weights and to the hidden units (ReLU,
@@ -101,6 +113,16 @@ class _Facts:
     imbalance: float | None
     n_numeric: int
     landmarks: Mapping[str, float]
+    metric: str
+
+    @property
+    def signal(self) -> float | None:
+        """The best landmarker's gain over guessing (R² for regression), ``None`` if none ran."""
+        return max(self.landmarks.values()) if self.landmarks else None
+
+    @property
+    def noisy(self) -> bool:
+        return self.signal is not None and self.signal < _NOISY_SIGNAL
 
 
 @dataclass
@@ -113,10 +135,13 @@ class _Decision:
     evidence: str = ""
     params: dict[str, ParamSpec] = field(default_factory=dict)
     centre: dict[str, Any] = field(default_factory=dict)
+    second: dict[str, Any] | None = None  # a second warm start, hedging the first one's regime
 
 
-def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None) -> _Facts:
-    from tunelab.engine._folds import fold_count  # the study's own fold rule; lazy: engine imports space
+def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None) -> _Facts:
+    # the study's own fold rule and default metric; imported here because the engine imports space
+    from tunelab.engine._folds import fold_count
+    from tunelab.engine._metrics import DEFAULT_METRIC
 
     n_rows = dataset.n_rows
     n_folds = fold_count(n_rows, dataset.task, dataset.y)
@@ -146,7 +171,7 @@ def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None) -
         budget=float(budget_seconds) if budget_seconds else REFERENCE_BUDGET_S,
         budget_given=bool(budget_seconds), skew=meta.statistical.mean_abs_skewness,
         imbalance=meta.information.imbalance_ratio, n_numeric=meta.simple.n_numeric,
-        landmarks=landmarks,
+        landmarks=landmarks, metric=metric or DEFAULT_METRIC[dataset.task],
     )
 
 
@@ -258,7 +283,8 @@ def _numeric_transform(d: _Decision, facts: _Facts) -> None:
 
 
 def _class_weight(d: _Decision, facts: _Facts) -> None:
-    if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH:
+    # Log loss scores the probabilities themselves, which reweighting the classes biases.
+    if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH and facts.metric != "log_loss":
         _put(d, "class_weight", _cat((None, "balanced"),
                                      f"classes imbalanced (largest/smallest = {facts.imbalance:.1f}): "
                                      "balanced weights searched"))
@@ -290,13 +316,13 @@ def _linear(facts: _Facts, meta: MetaFeatures) -> _Decision:
     r = facts.rows_per_column
     if facts.task == "regression":
         # Ridge's penalty is not divided by the rows, so equal shrinkage needs alpha ∝ rows.
-        lo, hi = (1e-5, 10.0) if r < 10 else (1e-6, 1.0)
+        lo, hi = (1e-4, 1.0) if r < 10 else (1e-5, 0.1)
         _put(d, "alpha", _float(lo * facts.n_fit, hi * facts.n_fit,
                                 f"ridge penalty scales with the {facts.n_fit} training rows; "
-                                f"{'stronger, few rows per column' if r < 10 else 'six decades'}", log=True))
+                                f"{'stronger, few rows per column' if r < 10 else 'four decades'}", log=True))
     else:
-        lo, hi, why = ((1e-4, 10.0, "toward strong penalties: few rows per column") if r < 10 else
-                       (1e-3, 100.0, "five decades") if r < 100 else
+        lo, hi, why = ((1e-3, 10.0, "toward strong penalties: few rows per column") if r < 10 else
+                       (1e-2, 100.0, "four decades around 1") if r < 100 else
                        (1e-2, 1000.0, "toward weak penalties: many rows per column"))
         _put(d, "C", _float(lo, hi, f"inverse penalty, {why} ({r:.0f} rows per column)", log=True), 1.0)
         _class_weight(d, facts)
@@ -315,23 +341,27 @@ def _hist_gb(facts: _Facts, meta: MetaFeatures) -> _Decision:
     d = _Decision("hist_gb", True, "strong default for tabular data; " + _share(trial, facts), trial)
     budget_note = "" if hi == 500 else f", capped at {hi} so a trial stays within {_TRIAL_SHARE_MAX:.0%} of the budget"
     _put(d, "max_iter", _int(lo, hi, f"boosting rounds{budget_note}", log=True))
+    prior = _HIST_GB_PRIORS["regularised" if facts.noisy else "standard"]
     lr_lo = _clamp(5.0 / hi, 0.01, 0.1)
     _put(d, "learning_rate", _float(lr_lo, 0.3, f"step size; floor {lr_lo:.2g} so {hi} rounds can converge",
-                                    log=True), 0.1)
+                                    log=True), prior["learning_rate"])
     leaves_hi = int(_clamp(facts.n_fit / 50, 16, 128))
     _put(d, "max_leaf_nodes", _int(4, leaves_hi, f"tree size, up to one leaf per 50 of the {facts.n_fit} training rows",
-                                   log=True), 31)
+                                   log=True), prior["max_leaf_nodes"])
     leaf_lo = int(_clamp(facts.n_fit / 2000, 1, 20))
     leaf_hi = int(_clamp(facts.n_fit / 20, 8, 500))
     _put(d, "min_samples_leaf", _int(leaf_lo, leaf_hi, f"leaf size grows with the {facts.n_fit} training rows",
-                                     log=True), 20)
-    _put(d, "l2_regularization", _float(1e-4, 10.0, "leaf value shrinkage over five decades", log=True), 1e-3)
+                                     log=True), max(prior["min_samples_leaf"], facts.n_fit / 100 if facts.noisy else 0))
+    _put(d, "l2_regularization", _float(1e-4, 10.0, "leaf value shrinkage over five decades", log=True),
+         prior["l2_regularization"])
     feat_lo = 0.3 if facts.width_tree > 20 else 0.5
     _put(d, "max_features", _float(feat_lo, 1.0, f"share of the {facts.width_tree} features per split; "
                                                  f"{'wider' if feat_lo < 0.5 else 'narrower'} range "
                                                  f"for {'many' if feat_lo < 0.5 else 'few'} columns"), 1.0)
     if facts.task != "regression":
         _class_weight(d, facts)
+    other = _HIST_GB_PRIORS["standard" if facts.noisy else "regularised"]
+    d.second = {**d.centre, **{k: _centre(d.params[k], v) for k, v in other.items()}}
     return d
 
 
@@ -356,9 +386,11 @@ def _forest(family: str, facts: _Facts, meta: MetaFeatures) -> _Decision:
     rule = "√p" if facts.task != "regression" else "p/3"
     _put(d, "max_features", _float(lo_f, 1.0, f"share of the {p} features per split, centred on the {rule} rule",
                                    log=True), max(centre, lo_f))
-    leaf_hi = int(_clamp(facts.n_fit / 100, 4, 50))
-    _put(d, "min_samples_leaf", _int(1, leaf_hi, f"leaf size, up to one per 100 of the {facts.n_fit} training rows",
-                                     log=True), 1 if facts.task != "regression" else 5)
+    leaf_hi = int(_clamp(facts.n_fit / 40, 8, 100))
+    # ESL 15.3 again: leaves of 1 row for classification, 5 for regression; bigger on a noisy target
+    leaf = _clamp(facts.n_fit / 100, 3, 30) if facts.noisy else 1 if facts.task != "regression" else 5
+    _put(d, "min_samples_leaf", _int(1, leaf_hi, f"leaf size, up to one per 40 of the {facts.n_fit} training rows",
+                                     log=True), leaf)
     if facts.task != "regression":
         _class_weight(d, facts)
     return d
@@ -460,7 +492,9 @@ def _evidence(family: str, facts: _Facts) -> tuple[float, str]:
       No landmarker speaks for tree ensembles (a single split is too weak a stand-in), so they
       keep their prior;
     * when 1-NN is the best landmarker, by a margin, local smooth structure favours neighbours
-      and kernels: kNN and SVM gain a point.
+      and kernels: kNN and SVM gain a point;
+    * under log loss kNN loses a point: its probabilities are shares of neighbour votes, often
+      exactly 0 or 1.
     """
     best = _best_landmark(facts)
     if best is None:
@@ -480,11 +514,17 @@ def _evidence(family: str, facts: _Facts) -> tuple[float, str]:
     if family in ("knn", "svm") and one_nn is not None and others and one_nn > max(others) + _LANDMARK_CLOSE:
         points += 1.0
         words.append("1-NN is the best landmarker: smooth local structure")
+    if family == "knn" and facts.metric == "log_loss":
+        points -= 1.0
+        words.append("log loss punishes its vote-share probabilities")
     return points, "; ".join(words)
 
 
 def _select(decisions: list[_Decision], facts: _Facts) -> tuple[list[_Decision], str]:
-    """Keep the best-scoring candidates while a few trials of each still fit the budget (at least two)."""
+    """Keep the best-scoring candidates while a few trials of each still fit the budget (at least two).
+
+    Linear and boosting are exempt: linear is the cheap fallback, boosting the strongest family.
+    """
     candidates = [d for d in decisions if d.include]
     for d in candidates:
         bonus, d.evidence = _evidence(d.family, facts)
@@ -497,11 +537,13 @@ def _select(decisions: list[_Decision], facts: _Facts) -> tuple[list[_Decision],
     for position, d in enumerate(ranked):
         need = _TRIALS_PER_FAMILY * (d.trial_s or 0.0)
         # linear stays whatever its landmarker says: the cheapest fallback, and the landmarker
-        # sees raw columns, not the quantile or log maps the search can give it
+        # sees raw columns, not the quantile or log maps the search can give it.  Boosting stays
+        # whenever a trial of it fits at all (see _hist_gb): the strongest family on most tables,
+        # and the cost probes, timed on a few hundred rows of a busy machine, overstate its cost.
         if position >= 2 and d.score < _SCORE_FLOOR and d.family != "linear":
             d.include = False
             d.reason = f"ranked {position + 1} of {len(ranked)}; the landmarkers speak against it: {d.evidence}"
-        elif position >= 2 and planned + need > facts.budget:
+        elif position >= 2 and planned + need > facts.budget and d.family != "hist_gb":
             d.include = False
             d.reason = (f"ranked {position + 1} of {len(ranked)}; {_TRIALS_PER_FAMILY} trials of each family "
                         f"ranked above already fill {planned / facts.budget:.0%} of the {_budget_words(facts)}")
@@ -548,12 +590,28 @@ def _preprocessing_notes(dataset: Dataset, facts: _Facts) -> list[str]:
     if facts.skew is not None and facts.skew > _SKEW_HIGH:
         notes.append(f"numeric columns skewed (mean |skewness| {facts.skew:.1f}): scaled models search "
                      "quantile and log maps")
-    if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH:
+    if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH and facts.metric != "log_loss":
         notes.append(f"classes imbalanced ({facts.imbalance:.1f} : 1): class weights searched")
     return notes
 
 
-def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float | None) -> SpaceSpec:
+def _regime_notes(facts: _Facts) -> list[str]:
+    notes = []
+    if facts.signal is not None:
+        gain = "R²" if facts.task == "regression" else "gain over guessing"
+        if facts.noisy:
+            notes.append(f"noisy target (best landmarker {gain} {facts.signal:.2f} < {_NOISY_SIGNAL}): "
+                         "priors lean to strong regularisation")
+        else:
+            notes.append(f"clear signal (best landmarker {gain} {facts.signal:.2f}): priors at the usual settings")
+    if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH and facts.metric == "log_loss":
+        notes.append(f"classes imbalanced ({facts.imbalance:.1f} : 1) but class weights not searched: "
+                     "log loss scores probabilities, which reweighting biases")
+    return notes
+
+
+def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float | None,
+                metric: str | None = None) -> SpaceSpec:
     """Build a search space for one dataset from its meta-features and the budget.
 
     Parameters
@@ -566,6 +624,9 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
     budget_seconds
         The study's wall-clock budget; ``None`` weighs costs against a reference of
         ``REFERENCE_BUDGET_S`` seconds.
+    metric
+        The study's metric; ``None`` means the task's default.  Class weights are not searched
+        under log loss, which scores the probabilities that reweighting biases.
 
     Returns
     -------
@@ -573,22 +634,28 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
         Families that fit, ranges scaled to the data, warm starts at the prior centres of the
         most promising families first, and a one-line reason for every decision.
     """
-    facts = _facts(dataset, meta, budget_seconds)
+    facts = _facts(dataset, meta, budget_seconds, metric)
     mlp, mlp_notes = _mlp(facts, meta)
     decisions = [_hist_gb(facts, meta), _forest("random_forest", facts, meta), _forest("extra_trees", facts, meta),
                  _linear(facts, meta), _svm(facts, meta), mlp, _knn(facts, meta)]
     kept, family_reason = _select(decisions, facts)
     prep, prep_centre = _prep_params(dataset, meta, facts)
     families = {d.family: FamilySpec(dict(d.params), d.reason) for d in kept}
-    warm = tuple({"family": d.family, **prep_centre, **{f"{d.family}.{k}": v for k, v in d.centre.items()}}
-                 for d in kept)
+    warm = [{"family": d.family, **prep_centre, **{f"{d.family}.{k}": v for k, v in d.centre.items()}}
+            for d in kept]
+    planned = sum(d.trial_s or 0.0 for d in kept)
+    for d in kept:
+        if d.second is not None and d.second != d.centre and planned + (d.trial_s or 0.0) <= _WARM_SHARE * facts.budget:
+            warm.append({"family": d.family, **prep_centre, **{f"{d.family}.{k}": v for k, v in d.second.items()}})
+            planned += d.trial_s or 0.0
     left_out = [f"{d.family} left out: {d.reason}" for d in decisions if not d.include]
     kept_mlp = any(d.family == "mlp" for d in kept)
     notes = [f"{len(dataset.columns)} columns, {facts.n_rows} rows, {dataset.task}; {facts.n_folds}-fold "
              "cross-validation per trial",
              *left_out, *(mlp_notes if kept_mlp else []), *_preprocessing_notes(dataset, facts),
-             "warm starts (prior centres, tried first): " + ", ".join(d.family for d in kept)]
-    return SpaceSpec(params=prep, families=families, warm_starts=warm, notes=tuple(notes),
+             *_regime_notes(facts),
+             "warm starts (prior centres, tried first): " + ", ".join(w["family"] for w in warm)]
+    return SpaceSpec(params=prep, families=families, warm_starts=tuple(warm), notes=tuple(notes),
                      family_reason=family_reason)
 
 

@@ -1,0 +1,320 @@
+"""Early pruning: reports within the first fold, the step scale, the rung pruner, and crash safety."""
+
+from __future__ import annotations
+
+import math
+import re
+import signal
+import sqlite3
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import optuna
+import pytest
+from threadpoolctl import threadpool_limits
+
+from tunelab.data import load_dataset
+from tunelab.engine import (
+    METRICS,
+    Budget,
+    CrossValidationObjective,
+    InProcessRunner,
+    Limits,
+    PruneSignal,
+    SystemClock,
+    make_pruner,
+)
+from tunelab.engine._metrics import score
+from tunelab.engine._pruning import MedianPruner, RungPruner, choose_pruning
+from tunelab.errors import InputError
+from tunelab.models import build_pipeline
+from tunelab.ops import list_studies, run_objective_study
+from tunelab.space import FamilySpec, ParamSpec, SpaceSpec
+
+TUNELAB = Path(sys.executable).with_name("tunelab")
+
+
+@pytest.fixture
+def dataset(small_csv):
+    return load_dataset(small_csv, "y")
+
+
+def collect():
+    seen: list[tuple[int, float]] = []
+    return seen, lambda step, value: seen.append((step, value))
+
+
+def first_fold_score(dataset, config, metric):
+    """The first fold's held-out score from a plain, one-call fit of the same pipeline."""
+    objective = CrossValidationObjective(dataset, metric, seed=0, n_folds=3)
+    train, test = objective.folds[0]
+    pipeline = build_pipeline(config, dataset.roles, objective.cardinality, dataset.task, seed=0)
+    with threadpool_limits(1):  # as trials run: one thread
+        pipeline.fit(dataset.X.iloc[train], dataset.y[train])
+    return score(metric, dataset.y[test], pipeline, dataset.X.iloc[test], dataset.classes)
+
+
+# ------------------------------------------------------------------ reports within the first fold
+
+def test_boosting_reports_twice_within_the_first_fold_then_after_each_fold_but_the_last(dataset):
+    config = {"family": "hist_gb", "hist_gb.max_iter": 40, "hist_gb.max_features": 0.5}
+    seen, report = collect()
+    result = CrossValidationObjective(dataset, METRICS["roc_auc"], seed=0, n_folds=3)(config, report)
+    assert [step for step, _ in seen] == [1, 2, 3, 6]
+    assert seen[2][1] == result.fold_scores[0]
+    assert seen[3][1] == pytest.approx(np.mean(result.fold_scores[:2]))
+
+
+@pytest.mark.parametrize("family, size", [("hist_gb", "max_iter"), ("random_forest", "n_estimators"),
+                                          ("extra_trees", "n_estimators")])
+def test_ensembles_grown_in_chunks_score_like_one_plain_fit_of_the_same_size(dataset, family, size):
+    # External check: scikit-learn documents warm_start as adding rounds (boosting) or trees
+    # (forests) to the existing fit, keeping the first call's seeds; the reference is one plain
+    # scikit-learn fit of the same pipeline.
+    config = {"family": family, f"{family}.{size}": 40, f"{family}.max_features": 0.5}
+    for metric in (METRICS["roc_auc"], METRICS["log_loss"]):
+        seen, report = collect()
+        result = CrossValidationObjective(dataset, metric, seed=0, n_folds=3)(config, report)
+        assert [step for step, _ in seen] == [1, 2, 3, 6]
+        assert result.fold_scores[0] == first_fold_score(dataset, config, metric)
+
+
+def test_a_prune_signal_at_a_chunk_stops_the_trial_within_the_first_fold(dataset):
+    objective = CrossValidationObjective(dataset, METRICS["roc_auc"], seed=0, n_folds=3)
+    seen: list[int] = []
+
+    def report(step, value):
+        seen.append(step)
+        if step == 1:
+            raise PruneSignal()
+
+    with pytest.raises(PruneSignal):
+        objective({"family": "hist_gb", "hist_gb.max_iter": 60}, report)
+    assert seen == [1]
+
+
+def test_the_runner_records_a_trial_pruned_at_a_chunk_with_the_step_it_reached(dataset):
+    objective = CrossValidationObjective(dataset, METRICS["roc_auc"], seed=0, n_folds=3)
+    runner = InProcessRunner(objective)
+    outcome = runner.run({"family": "hist_gb", "hist_gb.max_iter": 60}, lambda step, value: step == 2,
+                         Limits(None), SystemClock())
+    assert outcome.kind == "pruned"
+    assert outcome.last_step == 2
+    assert objective.describe_step(2) == "2/3 of fold 1"
+
+
+def test_mlp_reports_the_held_out_metric_at_a_third_and_two_thirds_of_its_epochs(dataset):
+    config = {"family": "mlp", "mlp.max_epochs": 6, "mlp.patience": 50, "mlp.hidden_width": 16}
+    metric = METRICS["accuracy"]
+    objective = CrossValidationObjective(dataset, metric, seed=0, n_folds=3)
+    seen, report = collect()
+    result = objective(config, report)
+    assert [step for step, _ in seen] == [1, 2, 3, 6]
+    # Accuracy on the first fold's held-out rows is a whole number of rows over their count;
+    # the MLP's inner validation loss (a cross-entropy) would not be.
+    n_test = len(objective.folds[0][1])
+    for _, value in seen[:3]:
+        assert 0.0 <= value <= 1.0
+        assert value * n_test == pytest.approx(round(value * n_test))
+    assert seen[2][1] == result.fold_scores[0] == first_fold_score(dataset, config, metric)
+
+
+def test_a_prune_signal_in_an_mlp_epoch_stops_the_trial(dataset):
+    objective = CrossValidationObjective(dataset, METRICS["accuracy"], seed=0, n_folds=3)
+    seen: list[int] = []
+
+    def report(step, value):
+        seen.append(step)
+        raise PruneSignal()
+
+    with pytest.raises(PruneSignal):
+        objective({"family": "mlp", "mlp.max_epochs": 30, "mlp.patience": 50, "mlp.hidden_width": 16}, report)
+    assert seen == [1]
+
+
+def test_a_model_fitted_in_one_call_first_reports_when_the_first_fold_is_done(dataset):
+    config = {"family": "linear", "linear.C": 1.0}
+    seen, report = collect()
+    CrossValidationObjective(dataset, METRICS["roc_auc"], seed=0, n_folds=5)(config, report)
+    assert [step for step, _ in seen] == [3, 6, 9, 12]
+
+
+# ------------------------------------------------------------------ the pruners
+
+def ask_and_report(study, reports, finish=True, family="hist_gb"):
+    """One trial of ``family`` reporting ``{step: value}``; returns whether the pruner stopped it."""
+    study.enqueue_trial({"family": family})
+    trial = study.ask()
+    trial.suggest_categorical("family", ["hist_gb", "random_forest", "linear"])
+    for step, value in sorted(reports.items()):
+        trial.report(value, step)
+        if trial.should_prune():
+            study.tell(trial, state=optuna.trial.TrialState.PRUNED)
+            return True
+    if finish:
+        study.tell(trial, list(reports.values())[-1])
+    return False
+
+
+def rung_study(**kwargs):
+    return optuna.create_study(direction="maximize", pruner=RungPruner(**kwargs))
+
+
+def test_a_rung_compares_a_partly_fitted_model_only_with_values_at_the_same_step():
+    study = rung_study(min_peers=3)
+    ask_and_report(study, {1: 0.60, 3: 0.80})   # boosting, a third of a fold then a fold
+    ask_and_report(study, {1: 0.70, 3: 0.82})
+    ask_and_report(study, {3: 0.95}, family="linear")  # first report after a whole fold
+    ask_and_report(study, {3: 0.96}, family="linear")
+    # 0.72 is the best of the three values at step 1, though worse than every value at step 3.
+    assert not ask_and_report(study, {1: 0.72}, finish=False)
+    assert ask_and_report(study, {1: 0.65})
+
+
+def test_below_one_fold_a_partly_fitted_model_meets_only_its_own_family():
+    study = rung_study(min_peers=2)
+    ask_and_report(study, {1: 0.95}, family="random_forest")  # a third of the trees: nearly there
+    ask_and_report(study, {1: 0.96}, family="random_forest")
+    ask_and_report(study, {1: 0.60}, family="hist_gb")         # a third of the boosting rounds
+    assert not ask_and_report(study, {1: 0.62, 3: 0.70}, finish=False)
+    # From one fold on, all families are compared: 0.70 is worse than the best third.
+    for value in (0.97, 0.98):
+        ask_and_report(study, {3: value}, family="random_forest")
+    assert ask_and_report(study, {3: 0.70})
+
+
+def test_the_median_rule_compares_with_finished_trials_at_the_same_step():
+    study = optuna.create_study(direction="minimize", pruner=MedianPruner(startup=3, min_peers=3))
+    for value in (0.3, 0.4, 0.5):
+        ask_and_report(study, {1: value, 3: value, 6: value})
+    assert not ask_and_report(study, {1: 0.35, 3: 0.35, 6: 0.35})
+    assert ask_and_report(study, {1: 0.9})
+    assert not ask_and_report(study, {1: 0.9}, family="linear")  # no finished linear model at step 1
+    assert ask_and_report(study, {3: 0.9}, family="linear")
+
+
+def test_a_rung_keeps_the_better_half_and_waits_for_enough_peers():
+    study = rung_study(min_peers=4)
+    assert not ask_and_report(study, {3: 0.5})
+    assert not ask_and_report(study, {3: 0.4})
+    assert not ask_and_report(study, {3: 0.3})   # three values: too few to rank
+    assert ask_and_report(study, {3: 0.35})      # 4 values: the best 2 (0.5, 0.4) go on
+    assert not ask_and_report(study, {3: 0.45})  # 5 values: the best 3 go on
+    assert not ask_and_report(study, {3: 0.9})
+
+
+def test_a_textbook_rung_keeps_a_third():
+    study = rung_study(min_peers=1, keep=1 / 3)
+    for value in (0.5, 0.4):
+        ask_and_report(study, {3: value})
+    assert ask_and_report(study, {3: 0.45})      # 3 values: only the best goes on
+
+
+def test_steps_between_rungs_never_prune_and_nan_always_does():
+    study = rung_study(min_peers=1)
+    for value in (0.9, 0.8, 0.7):
+        ask_and_report(study, {2: value, 6: value})
+    assert not ask_and_report(study, {2: 0.1, 6: 0.1})  # steps 2 and 6 are not rungs (1, 3, 9, ...)
+    assert ask_and_report(study, {1: math.nan})
+    assert [RungPruner().rung_of(s) for s in (1, 2, 3, 6, 9, 27)] == [0, None, 1, None, 2, 3]
+
+
+def test_hyperband_brackets_start_pruning_at_later_rungs():
+    study = rung_study(min_peers=1, brackets=3)
+    for number in range(6):  # trials 0-5: two per bracket, values increasing
+        ask_and_report(study, {1: 0.5 + number / 100, 3: 0.5 + number / 100})
+    # Trial 6 (bracket 0) is judged at step 1, trial 7 (bracket 1) is not; both are the worst.
+    assert ask_and_report(study, {1: 0.1, 3: 0.1})
+    trial = study.ask()
+    trial.report(0.1, 1)
+    assert not trial.should_prune()
+    trial.report(0.1, 3)
+    assert trial.should_prune()
+
+
+def test_auto_pruning_follows_the_expected_trial_count():
+    assert choose_pruning(None) == "halving"
+    assert choose_pruning(5) == "off"
+    assert choose_pruning(20) == "median"
+    assert choose_pruning(200) == "halving"
+    assert isinstance(make_pruner("auto", max_steps=5, expected_trials=5), optuna.pruners.NopPruner)
+    assert isinstance(make_pruner("median", max_steps=5), MedianPruner)
+    assert isinstance(make_pruner("halving", max_steps=5), RungPruner)
+    assert make_pruner("hyperband", max_steps=5).brackets == 3
+
+
+def test_an_unknown_pruning_choice_is_refused_with_a_hint():
+    with pytest.raises(InputError, match="unknown pruning 'sometimes'"):
+        make_pruner("sometimes", max_steps=5)
+
+
+# ------------------------------------------------------------------ in a search
+
+BOOSTING_ONLY = SpaceSpec(families={"hist_gb": FamilySpec({
+    "max_iter": ParamSpec("int", low=10, high=60),
+    "learning_rate": ParamSpec("float", low=0.001, high=0.5, log=True),
+    "max_leaf_nodes": ParamSpec("int", low=4, high=32),
+})})
+
+
+def test_pruned_trials_keep_how_far_they_got_and_the_time_they_used_and_status_counts_them(dataset, store_path):
+    objective = CrossValidationObjective(dataset, METRICS["roc_auc"], seed=0, n_folds=3)
+    result = run_objective_study("prune", objective, BOOSTING_ONLY, Budget(trials=24), store=str(store_path),
+                                 direction="maximize", pruning="halving")
+    pruned = result.summary.counts["pruned"]
+    assert pruned > 0
+    study = optuna.load_study(study_name="prune", storage=f"sqlite:///{store_path}")
+    for trial in study.get_trials(states=(optuna.trial.TrialState.PRUNED,)):
+        assert re.fullmatch(r"step (1 \(1/3|2 \(2/3) of fold 1\)|step 3 \(1 of 3 folds\)", trial.user_attrs["fidelity"])
+        assert trial.user_attrs["seconds"] > 0
+    [line] = list_studies(str(store_path))
+    assert line.counts["pruned"] == pruned
+
+
+# ------------------------------------------------------------------ crash safety with pruning on
+
+def store_counts(store: Path) -> dict[str, int]:
+    try:
+        conn = sqlite3.connect(f"file:{store}?mode=ro", uri=True)
+        try:
+            return dict(conn.execute("select state, count(*) from trials group by state").fetchall())
+        finally:
+            conn.close()
+    except sqlite3.Error:
+        return {}
+
+
+@pytest.mark.slow
+def test_a_killed_run_with_pruning_on_resumes_cleanly(tmp_path, small_csv):
+    store = tmp_path / "kill.db"
+    command = [str(TUNELAB), "run", str(small_csv), "--target", "y", "--budget", "60s", "--store", str(store),
+               "--study", "kill", "--pruning", "halving", "-q"]
+    proc = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    deadline = time.monotonic() + 120
+    counts: dict[str, int] = {}
+    while time.monotonic() < deadline and proc.poll() is None:
+        time.sleep(0.1)
+        counts = store_counts(store)
+        if counts.get("PRUNED", 0) >= 1 and counts.get("COMPLETE", 0) >= 3:
+            break
+    assert proc.poll() is None, "the run ended before it could be killed"
+    proc.send_signal(signal.SIGKILL)
+    proc.wait(timeout=30)
+    assert counts.get("PRUNED", 0) >= 1
+
+    resumed = subprocess.run([str(TUNELAB), "resume", "kill", "--store", str(store), "-q"],
+                             capture_output=True, text=True, timeout=180)
+    assert resumed.returncode == 0, resumed.stderr
+    conn = sqlite3.connect(store)
+    try:
+        assert conn.execute("pragma integrity_check").fetchone() == ("ok",)
+        running = conn.execute("select count(*) from trials where state = 'RUNNING'").fetchone()[0]
+    finally:
+        conn.close()
+    assert running == 0
+    after = store_counts(store)
+    assert after.get("PRUNED", 0) >= counts["PRUNED"]
+    assert after.get("COMPLETE", 0) >= counts["COMPLETE"]
