@@ -10,6 +10,7 @@ import subprocess
 import sys
 import time
 from pathlib import Path
+from types import SimpleNamespace
 
 import numpy as np
 import optuna
@@ -28,6 +29,7 @@ from tunelab.engine import (
     make_pruner,
 )
 from tunelab.engine._metrics import score
+from tunelab.engine._objective import _epoch_reporter
 from tunelab.engine._pruning import MedianPruner, RungPruner, choose_pruning
 from tunelab.errors import InputError
 from tunelab.models import build_pipeline
@@ -120,6 +122,24 @@ def test_mlp_reports_the_held_out_metric_at_a_third_and_two_thirds_of_its_epochs
         assert 0.0 <= value <= 1.0
         assert value * n_test == pytest.approx(round(value * n_test))
     assert seen[2][1] == result.fold_scores[0] == first_fold_score(dataset, config, metric)
+
+
+def test_mlp_checkpoints_sit_at_thirds_of_its_planned_epochs_not_of_max_epochs():
+    # Early stopping ends most runs near four patiences; thirds of max_epochs would come too late.
+    class HeldOut:
+        def score(self, model, X):
+            return 0.5
+
+    model = SimpleNamespace(max_epochs=200, patience=5, module_=object())
+    seen, report = collect()
+    on_epoch = _epoch_reporter(model, None, HeldOut(), report)
+    for epoch in range(1, 201):
+        on_epoch(epoch, 0.1)
+    assert seen == [(1, 0.5), (2, 0.5)]
+    seen.clear()
+    for epoch in range(1, 8):
+        on_epoch(epoch, 0.1 if epoch != 7 else math.nan)  # diverged at the checkpoint epoch 7
+    assert seen == []
 
 
 def test_a_prune_signal_in_an_mlp_epoch_stops_the_trial(dataset):

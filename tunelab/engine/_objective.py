@@ -14,8 +14,8 @@ same kind of value for every family.  Here a step is a unit of work — one thir
 step                        value reported
 ==========================  ========================================================
 1, 2                        within the first fold, after 1/3 and 2/3 of the model's
-                            training (boosting rounds, trees of a forest, epochs of the
-                            MLP): the metric on the first fold's held-out rows
+                            training (boosting rounds, trees of a forest, planned epochs
+                            of the MLP): the metric on the first fold's held-out rows
 3                           the first fold fully fitted: its held-out score
 3·f (f = 2 … k-1)           after fold f: the mean of the held-out scores of folds 1 … f
 ==========================  ========================================================
@@ -49,6 +49,9 @@ from tunelab.engine._metrics import Metric, score
 Report = Callable[[int, float], None]
 
 STEPS_PER_FOLD = 3
+# An MLP with early stopping typically stops after about four times its patience (the space
+# builder measured ~40 epochs at patience 10); the first-fold checkpoints are thirds of that.
+PATIENCES_PLANNED = 4
 
 
 class PruneSignal(Exception):
@@ -163,7 +166,8 @@ def fit_in_parts(pipeline: Any, X_train: Any, y_train: np.ndarray, X_test: Any, 
 
     Ensembles are grown in chunks with ``warm_start`` — boosting rounds for gradient boosting,
     trees for forests — which gives the same model as a single fit; the MLP is scored on the
-    held-out rows at epochs 1/3 and 2/3 of ``max_epochs``.  Any other model is fitted once.
+    held-out rows at a third and two thirds of its planned epochs (see ``_epoch_reporter``).
+    Any other model is fitted once.
     Returns the fully fitted model's held-out score.
     """
     model = pipeline.steps[-1][1]
@@ -244,9 +248,14 @@ def _watching(model: Any) -> Any:
 
 
 def _epoch_reporter(model: Any, X_test: Any, held_out: _HeldOut, report: Report) -> Callable[[int, float], None]:
-    """An ``epoch_callback`` that reports the held-out score at epochs 1/3 and 2/3 of ``max_epochs``."""
-    epochs = int(model.max_epochs)
-    ends = chunk_ends(epochs)[:-1] if epochs >= STEPS_PER_FOLD else []
+    """An ``epoch_callback`` that reports the held-out score at a third and two thirds of the planned epochs.
+
+    Early stopping usually ends training long before ``max_epochs``, so the planned length is
+    ``min(max_epochs, PATIENCES_PLANNED * patience)``; otherwise most MLPs would stop before the
+    first checkpoint and never be judged within the first fold.
+    """
+    planned = min(int(model.max_epochs), PATIENCES_PLANNED * int(model.patience))
+    ends = chunk_ends(planned)[:-1] if planned >= STEPS_PER_FOLD else []
     checkpoints = {end: step for step, end in enumerate(ends, start=1)}
 
     def on_epoch(epoch: int, validation_loss: float) -> None:
