@@ -123,3 +123,12 @@ def test_regression_and_multiclass_tasks_are_inferred(cli, tmp_path, store_path)
     multi = json.loads(cli("run", str(path), "--target", "kind", "--trials", "2", "--store", str(store_path),
                            "--json").out)
     assert multi["metric"] == "log_loss"
+
+
+def test_export_rebuilds_what_the_space_fixed_one_family_and_frozen_knobs():
+    from tunelab.space import FamilySpec, ParamSpec, SpaceSpec, fixed
+
+    space = SpaceSpec(families={"hist_gb": FamilySpec({"max_iter": fixed(300), "learning_rate":
+                                                        ParamSpec("float", low=0.01, high=0.3)})})
+    assert space.complete({"hist_gb.learning_rate": 0.1}) == {
+        "hist_gb.learning_rate": 0.1, "family": "hist_gb", "hist_gb.max_iter": 300}

@@ -17,6 +17,7 @@ from tunelab.engine import Clock, SystemClock, trial_state
 from tunelab.errors import InputError, ModelFileError, StudyStateError
 from tunelab.models import build_pipeline
 from tunelab.models._model_file import check_columns, load_pipeline, read_meta, write_model_file
+from tunelab.space import SpaceSpec
 from tunelab.store import Store
 
 
@@ -72,9 +73,11 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
                                  f"see the finished trials with `tunelab status {name}`")
             chosen = matches[0]
         dataset = load_dataset(Path(record.data_path), record.target, record.task)
-        config = dict(chosen.params)
+        phases = {p.number: p for p in st.phases(record.id)}
+        phase = phases.get(int(chosen.user_attrs.get("tl_phase", 1)), phases[min(phases)])
+        config = SpaceSpec.from_json(phase.space_json).complete(chosen.params)
         pipeline = build_pipeline(config, dataset.roles, {c.name: c.n_unique for c in dataset.columns},
-                                  dataset.task, seed=record.seed, n_threads=-1)
+                                  dataset.task, seed=record.seed, n_threads=1)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             pipeline.fit(dataset.X, dataset.y)

@@ -142,6 +142,20 @@ class SpaceSpec:
                 config[full] = spec.suggest(trial, full)
         return config
 
+    def complete(self, params: Mapping[str, Any]) -> dict[str, Any]:
+        """A trial's sampled params plus what the space fixed without sampling (one family, frozen knobs)."""
+        config = dict(params)
+        for name, spec in self.params.items():
+            if spec.kind == "fixed":
+                config.setdefault(name, spec.value)
+        if self.families:
+            family = config.setdefault("family", next(iter(self.families)))
+            if family in self.families:
+                for pname, spec in self.families[family].params.items():
+                    if spec.kind == "fixed":
+                        config.setdefault(f"{family}.{pname}", spec.value)
+        return config
+
     def distributions(self) -> dict[str, BaseDistribution]:
         """Every searched parameter's optuna distribution (fixed ones left out)."""
         out: dict[str, BaseDistribution] = {}
