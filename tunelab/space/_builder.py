@@ -492,7 +492,8 @@ def _evidence(family: str, facts: _Facts) -> tuple[float, str]:
       No landmarker speaks for tree ensembles (a single split is too weak a stand-in), so they
       keep their prior;
     * when 1-NN is the best landmarker, by a margin, local smooth structure favours neighbours
-      and kernels: kNN and SVM gain a point;
+      and kernels: kNN and SVM gain a point, except under log loss, where their probabilities
+      (vote shares, Platt scaling) count as much as their boundaries;
     * under log loss kNN loses a point: its probabilities are shares of neighbour votes, often
       exactly 0 or 1.
     """
@@ -511,7 +512,9 @@ def _evidence(family: str, facts: _Facts) -> tuple[float, str]:
         elif family == "linear":
             words.append("linear landmarker among the best")
     others = [v for v in (linear, stump) if v is not None]
-    if family in ("knn", "svm") and one_nn is not None and others and one_nn > max(others) + _LANDMARK_CLOSE:
+    probabilities_scored = facts.metric == "log_loss"
+    if (family in ("knn", "svm") and one_nn is not None and others and one_nn > max(others) + _LANDMARK_CLOSE
+            and not probabilities_scored):
         points += 1.0
         words.append("1-NN is the best landmarker: smooth local structure")
     if family == "knn" and facts.metric == "log_loss":
