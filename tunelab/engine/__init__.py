@@ -11,12 +11,13 @@ from tunelab.engine._objective import CrossValidationObjective, Objective, Prune
 from tunelab.engine._pruning import PRUNING_CHOICES, make_pruner
 from tunelab.engine._recovery import Recovery, recover, trial_state
 from tunelab.engine._runner import ForkRunner, InProcessRunner, Limits, Outcome
-from tunelab.engine._search import Progress, SearchSettings, SearchSummary, StopRequested, search
+from tunelab.engine._search import Progress, SearchSettings, SearchSummary, search
+from tunelab.engine._stop import StopRequested, clear_stop, request_stop
 
 __all__ = [
     "DEFAULT_METRIC", "METRICS", "PRUNING_CHOICES", "Budget", "Clock", "CrossValidationObjective", "FakeClock",
     "ForkRunner", "InProcessRunner", "Limits", "Metric", "Objective", "Outcome", "Progress", "PruneSignal",
-    "Recovery", "Report", "SearchSettings", "SearchSummary", "Spent", "StopRequested", "SystemClock",
+    "Recovery", "Report", "SearchSettings", "SearchSummary", "Spent", "StopRequested", "SystemClock", "clear_stop",
     "TrialResult", "better", "fold_count", "format_duration", "make_folds", "make_pruner", "overshoot_allowance",
-    "parse_duration", "recover", "remaining", "resolve_metric", "score", "search", "trial_state",
+    "parse_duration", "recover", "remaining", "request_stop", "resolve_metric", "score", "search", "trial_state",
 ]

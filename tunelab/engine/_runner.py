@@ -18,6 +18,7 @@ from typing import Any, Callable, Literal, Mapping
 
 from tunelab.engine._clock import Clock
 from tunelab.engine._objective import Objective, PruneSignal, TrialResult
+from tunelab.engine._stop import raise_pending
 
 OutcomeKind = Literal["complete", "pruned", "failed", "timeout"]
 ShouldPrune = Callable[[int, float], bool]
@@ -102,6 +103,7 @@ class ForkRunner:
         last_step, last_value = 0, None
         try:
             while True:
+                raise_pending()  # a stop whose signal landed where exceptions are swallowed (at fork)
                 if limits.deadline is not None and clock.now() >= limits.deadline:
                     return self._stop(child, Outcome("timeout", last_step=last_step, last_value=last_value))
                 if limits.cpu_left is not None and _process_cpu(child.pid) >= limits.cpu_left:

@@ -12,6 +12,7 @@ import threading
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
+from optuna.exceptions import UpdateFinishedTrialError
 from optuna.trial import TrialState
 
 from tunelab.engine._budget import Budget, Spent, remaining
@@ -24,17 +25,9 @@ from tunelab.engine._recovery import (
     recover,
 )
 from tunelab.engine._runner import Limits, Outcome
+from tunelab.engine._stop import StopRequested, clear_stop, raise_pending
 from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord
-
-
-class StopRequested(BaseException):
-    """Raised in the main thread by a signal handler (SIGTERM, SIGHUP) to stop the search cleanly."""
-
-    def __init__(self, signal_name: str, exit_code: int) -> None:
-        super().__init__(signal_name)
-        self.signal_name = signal_name
-        self.exit_code = exit_code
 
 
 @dataclass
@@ -141,6 +134,9 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
     deadline = None if left_wall is None else now + left_wall
     heartbeat = _Heartbeat(store, launch_id, clock, started, settings.heartbeat_interval, runner)
     heartbeat.beat()  # start-up time (imports, loading) is already spent: record it before the first trial
+    owner = {LAUNCH_ATTR: launch_id, PHASE_ATTR: settings.phase}
+    if hasattr(study._storage, "stamp"):
+        study._storage.stamp = dict(owner)  # new trials are created carrying their owner
     durations: dict[str, list[float]] = _past_durations(study)
     counts = {"complete": 0, "pruned": 0, "failed": 0, "interrupted": 0}
     state = "finished"
@@ -154,6 +150,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
                 summary.recovered += found.interrupted
                 summary.requeued += found.requeued
                 next_recovery = clock.now() + settings.recovery_interval
+            raise_pending()
             finished_total = store.count_finished(record.name) if budget.trials is not None else 0
             reason = _stop_reason(clock.now(), deadline, left_cpu, heartbeat, budget.trials, finished_total,
                                   durations)
@@ -161,9 +158,9 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
                 summary.stop_reason = reason
                 break
             trial = study.ask()
-            study._storage.set_trial_user_attr(trial._trial_id, LAUNCH_ATTR, launch_id)
-            study._storage.set_trial_user_attr(trial._trial_id, PHASE_ATTR, settings.phase)
+            _stamp(study, trial, owner)
             config = space.sample(trial)
+            _flush(study)  # the config is in the store before the fit starts: a crash re-queues it
             t0 = clock.now()
             cpu_left = None if left_cpu is None else max(0.0, left_cpu - heartbeat.cpu_seconds())
             outcome = runner.run(config, _pruning_hook(trial), Limits(deadline, cpu_left), clock)
@@ -181,6 +178,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
                 summary.stop_reason = outcome.extras.get("stopped_by", "time budget") + " spent during a trial"
                 break
     except (KeyboardInterrupt, StopRequested) as exc:
+        clear_stop()
         if trial is not None and _mark_interrupted(study, trial):
             counts[INTERRUPTED] += 1
         name = exc.signal_name if isinstance(exc, StopRequested) else "SIGINT"
@@ -201,6 +199,20 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
     summary.counts = counts
     _fill_best(summary, study)
     return summary
+
+
+def _stamp(study: Any, trial: Any, owner: dict[str, Any]) -> None:
+    """Record which launch and phase run the trial (new trials already carry it; queued ones do not)."""
+    have = study._storage.get_trial(trial._trial_id).user_attrs
+    for key, value in owner.items():
+        if have.get(key) != value:
+            study._storage.set_trial_user_attr(trial._trial_id, key, value)
+
+
+def _flush(study: Any) -> None:
+    flush = getattr(study._storage, "flush", None)
+    if flush is not None:
+        flush()
 
 
 def _pruning_hook(trial: Any) -> Callable[[int, float], bool]:
@@ -243,8 +255,11 @@ def _mark_interrupted(study: Any, trial: Any) -> bool:
     """Record a running trial as interrupted; False when it had already been recorded (a stop between steps)."""
     if study._storage.get_trial(trial._trial_id).state.is_finished():
         return False
-    study._storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, INTERRUPTED)
-    study.tell(trial, state=TrialState.FAIL)
+    try:
+        study._storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, INTERRUPTED)
+        study.tell(trial, state=TrialState.FAIL)
+    except UpdateFinishedTrialError:  # another worker recovered it meanwhile
+        return False
     return True
 
 

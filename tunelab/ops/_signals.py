@@ -11,7 +11,7 @@ import signal
 import threading
 from typing import Any, Iterator
 
-from tunelab.engine import StopRequested
+from tunelab.engine import StopRequested, clear_stop, request_stop
 
 _EXIT_CODES = {signal.SIGINT: 130, signal.SIGTERM: 143, signal.SIGHUP: 129}
 
@@ -29,9 +29,10 @@ def stop_on_signals() -> Iterator[None]:
         if fired:
             return
         fired.append(signum)
-        if signum == signal.SIGINT:
-            raise KeyboardInterrupt
-        raise StopRequested(signal.Signals(signum).name, _EXIT_CODES.get(signum, 128 + signum))
+        stop: BaseException = KeyboardInterrupt() if signum == signal.SIGINT else \
+            StopRequested(signal.Signals(signum).name, _EXIT_CODES.get(signum, 128 + signum))
+        request_stop(stop)  # kept in case this raise lands where exceptions are swallowed
+        raise stop
 
     for sig in _EXIT_CODES:
         previous[sig] = signal.signal(sig, handler)
@@ -40,3 +41,4 @@ def stop_on_signals() -> Iterator[None]:
     finally:
         for sig, old in previous.items():
             signal.signal(sig, old)
+        clear_stop()

@@ -160,7 +160,7 @@ class Store:
     def close(self) -> None:
         if self._optuna is not None:
             with contextlib.suppress(Exception):
-                self._optuna.engine.dispose()
+                self._optuna._backend.engine.dispose()
         self.engine.dispose()
 
     def __enter__(self) -> "Store":
@@ -182,9 +182,15 @@ class Store:
                              "run again with --debug for details") from exc
 
     def optuna_storage(self) -> Any:
-        """optuna's RDB storage on the same database (trials, params, intermediate values)."""
+        """optuna's RDB storage on the same database (trials, params, intermediate values).
+
+        Wrapped so that the trials this process runs are written in a few transactions each
+        (see ``LocalTrialStorage``).
+        """
         if self._optuna is None:
             import optuna
+
+            from tunelab.store._trial_buffer import LocalTrialStorage
 
             kwargs: dict[str, Any] = {"pool_pre_ping": True}
             if self.location.path is not None:
@@ -192,7 +198,7 @@ class Store:
             elif self.location.url.startswith("postgresql"):
                 kwargs["connect_args"] = {"connect_timeout": CONNECT_TIMEOUT_S}
             with self._translate("open the trial tables"):
-                self._optuna = optuna.storages.RDBStorage(self.location.url, engine_kwargs=kwargs)
+                self._optuna = LocalTrialStorage(optuna.storages.RDBStorage(self.location.url, engine_kwargs=kwargs))
         return self._optuna
 
     # ---- studies ---------------------------------------------------------------------------
