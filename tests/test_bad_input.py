@@ -221,3 +221,4 @@ def test_profile_refuses_the_same_bad_files_in_one_line(case, tmp_path, cli):
 def test_profile_refuses_a_missing_target_and_a_bad_budget(cli, small_csv):
     assert "is not in the data" in one_line_error(cli("profile", str(small_csv), "--target", "nope"))
     assert "budget" in one_line_error(cli("profile", str(small_csv), "--target", "y", "--budget", "0"))
+    assert "rmse" in one_line_error(cli("profile", str(small_csv), "--target", "y", "--metric", "rmse"))

@@ -338,3 +338,41 @@ def test_a_killed_run_with_pruning_on_resumes_cleanly(tmp_path, small_csv):
     after = store_counts(store)
     assert after.get("PRUNED", 0) >= counts["PRUNED"]
     assert after.get("COMPLETE", 0) >= counts["COMPLETE"]
+
+
+@pytest.mark.parametrize("trial_seconds, expected, rule", [(30.0, 2.0, "off"), (2.5, 24.0, "median"),
+                                                          (0.5, 40.0, "halving")])
+def test_auto_pruning_follows_the_trials_the_budget_is_expected_to_finish(tmp_path, small_csv, trial_seconds,
+                                                                          expected, rule):
+    # 60 s at the builder's trial estimate, capped by --trials 40: the rule is kept with the study.
+    from tunelab.engine import Budget
+    from tunelab.ops import RunRequest, run_study
+    from tunelab.space import default_space
+    from tunelab.store import Store
+
+    dataset = load_dataset(small_csv, "y")
+    space = default_space(dataset.task, dataset.roles)
+    space_file = tmp_path / "space.json"
+    space_file.write_text(type(space).from_dict({**space.to_dict(), "trial_seconds": trial_seconds}).to_json())
+    store = tmp_path / "auto.db"
+    run_study(RunRequest(small_csv, "y", Budget(60.0, trials=40), store=str(store), space_file=space_file,
+                         study="auto"), settings=None, on_progress=None, announce=None,
+              runner_factory=lambda objective: _StopAtOnce())
+    with Store.open(str(store)) as st:
+        assert st.get_study("auto").settings["expected_trials"] == expected
+    assert choose_pruning(expected) == rule
+
+
+class _StopAtOnce:
+    """A runner that ends the launch before any trial runs (only the study's settings matter here)."""
+
+    objective = None
+
+    def run(self, *args, **kwargs):
+        raise KeyboardInterrupt
+
+    def close(self):
+        pass
+
+    def live_cpu(self):
+        return 0.0

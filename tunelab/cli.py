@@ -302,6 +302,8 @@ def profile(
     target: str = typer.Option(..., "--target", "-t", help="Column to predict."),
     task: Optional[str] = typer.Option(None, "--task", help="binary, multiclass or regression. [default: inferred]"),
     budget: Optional[str] = typer.Option(None, "--budget", "-b", help="Plan the search space for this budget, e.g. 10m."),
+    metric: Optional[str] = typer.Option(None, "--metric", "-m",
+                                         help="Plan for this metric, as run --metric would score. [default: the task's]"),
     write_space: Optional[Path] = typer.Option(None, "--write-space", help="Write the search space JSON here "
                                                                              "(edit it, then pass it to run --space)."),
     seed: int = SeedOpt,
@@ -316,7 +318,7 @@ def profile(
     from tunelab.ops import profile_data
 
     seconds = parse_duration(budget) if budget else None
-    report = profile_data(data, target, task, budget_seconds=seconds, seed=seed)
+    report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed)
     if write_space is not None:
         write_space.write_text(report.space.to_json() + "\n", encoding="utf-8")
     if json_out:

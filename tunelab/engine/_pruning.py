@@ -160,8 +160,8 @@ def choose_pruning(expected_trials: float | None) -> str:
     median rule (prune what is worse than the median of finished trials at that step) is
     gentle; with more, or when the count is unknown, successive halving, which lets a third
     of the first fold decide whether a model gets the whole fold, and one fold whether it
-    gets three.  ``tunelab run`` does not know the count yet when it builds the pruner, so
-    it gets halving.
+    gets three.  ``tunelab run`` estimates the count from the budget and the space builder's
+    cost probes (``SpaceSpec.trial_seconds``); without an estimate it gets halving.
     """
     if expected_trials is None:
         return "halving"

@@ -26,10 +26,11 @@ from tunelab.engine import (
     search,
 )
 from tunelab.errors import InputError, StudyStateError
+from tunelab.ops._profile import built_space
 from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
 from tunelab.models import preload
-from tunelab.space import SpaceSpec, default_space
+from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord
 
 
@@ -94,9 +95,13 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
     clock = clock or SystemClock()
     dataset = load_dataset(request.data, request.target, request.task)
     metric = resolve_metric(request.metric, dataset.task)
-    space = _load_space(request.space_file) if request.space_file else default_space(dataset.task, dataset.roles)
+    # The space comes from the data's meta-features (``tunelab profile`` shows it, with reasons);
+    # profiling runs inside the launch, so its seconds are charged to the budget like any other.
+    space = _load_space(request.space_file) if request.space_file else \
+        built_space(dataset, budget_seconds=request.budget.wall_seconds, metric=metric.name, seed=request.seed)
     _check_space_fits(space, dataset)
     pruner_kind = request.pruning
+    expected = _expected_trials(space, request.budget, request.jobs)
     make_pruner(pruner_kind, max_steps=5)  # validate before the store is touched
     with Store.open(request.store, create=True) as store:
         name = request.study or _unique_name(request.data.stem, store.study_names())
@@ -109,11 +114,11 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
             task=dataset.task, metric=metric.name, direction=metric.direction, seed=request.seed,
             budget_wall=request.budget.wall_seconds, budget_cpu=request.budget.cpu_seconds,
             budget_trials=request.budget.trials,
-            settings={"pruning": pruner_kind, "jobs": request.jobs,
+            settings={"pruning": pruner_kind, "jobs": request.jobs, "expected_trials": expected,
                       "n_folds": fold_count(dataset.n_rows, dataset.task, dataset.y)},
             space_json=space.to_json(), space_reason=space.family_reason or "initial search space",
         )
-        study = _optuna_study(store, record, launch_number=0, expected_trials=None, create=True)
+        study = _optuna_study(store, record, launch_number=0, create=True)
         for config in space.warm_starts:
             study.enqueue_trial(dict(config), user_attrs={"tl_warm_start": True})
         return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
@@ -158,7 +163,7 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
         phases = st.phases(record.id)
         space = SpaceSpec.from_json(phases[-1].space_json)
         launches = len(st.launches(record.id))
-        study = _optuna_study(st, record, launch_number=launches, expected_trials=None, create=False,
+        study = _optuna_study(st, record, launch_number=launches, create=False,
                               salt=os.getpid() if kind == "worker" else 0)
         settings = settings or SearchSettings()
         settings.phase = phases[-1].number
@@ -206,8 +211,17 @@ def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, spa
     return RunResult(record.name, store.location.display(), record.metric, record.direction, summary, best)
 
 
-def _optuna_study(store: Store, record: StudyRecord, *, launch_number: int, expected_trials: float | None,
-                  create: bool, salt: int = 0) -> Any:
+def _expected_trials(space: SpaceSpec, budget: Budget, jobs: int) -> float | None:
+    """Trials the whole budget should finish, from the builder's cost estimate; picks the ``auto`` pruning rule."""
+    by_time = None
+    if budget.wall_seconds is not None and space.trial_seconds:
+        by_time = round(jobs * budget.wall_seconds / space.trial_seconds, 1)
+    if budget.trials is None:
+        return by_time
+    return float(budget.trials) if by_time is None else min(float(budget.trials), by_time)
+
+
+def _optuna_study(store: Store, record: StudyRecord, *, launch_number: int, create: bool, salt: int = 0) -> Any:
     """Load (or create) the optuna study with a seeded sampler.
 
     ``salt`` separates the random streams of workers that join at the same moment (they would
@@ -217,7 +231,8 @@ def _optuna_study(store: Store, record: StudyRecord, *, launch_number: int, expe
 
     sampler = make_sampler(record.settings.get("sampler", "tpe"), (record.seed + launch_number + salt) % (2**32))
     n_folds = int(record.settings.get("n_folds", 5))
-    pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds, expected_trials=expected_trials)
+    pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
+                         expected_trials=record.settings.get("expected_trials"))
     optuna.logging.set_verbosity(optuna.logging.WARNING)  # tunelab reports study creation itself
     storage = store.optuna_storage()
     if create:
@@ -277,7 +292,7 @@ def create_objective_study(name: str, space: SpaceSpec, budget: Budget, *, store
             budget_cpu=budget.cpu_seconds, budget_trials=budget.trials,
             settings={"pruning": pruning, "sampler": sampler, "n_folds": 1}, space_json=space.to_json(),
             space_reason="objective study")
-        _optuna_study(st, record, launch_number=0, expected_trials=None, create=True)
+        _optuna_study(st, record, launch_number=0, create=True)
         return record
 
 
@@ -292,7 +307,7 @@ def join_objective_study(name: str, objective: Any, *, store: str | None = None,
         record = st.get_study(name)
         space = SpaceSpec.from_json(st.phases(record.id)[-1].space_json)
         budget = Budget(record.budget_wall, record.budget_cpu, record.budget_trials)
-        study = _optuna_study(st, record, launch_number=len(st.launches(record.id)), expected_trials=None,
+        study = _optuna_study(st, record, launch_number=len(st.launches(record.id)),
                               create=False, salt=os.getpid() if kind == "worker" else 0)
         settings = settings or SearchSettings()
         settings.kind = kind

@@ -21,6 +21,7 @@ regularised) than the one the landmarkers pointed to, as a hedge.
 from __future__ import annotations
 
 import math
+import statistics
 from dataclasses import dataclass, field
 from typing import Any, Mapping
 
@@ -658,8 +659,9 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
              *left_out, *(mlp_notes if kept_mlp else []), *_preprocessing_notes(dataset, facts),
              *_regime_notes(facts),
              "warm starts (prior centres, tried first): " + ", ".join(w["family"] for w in warm)]
+    costs = sorted(d.trial_s for d in kept if d.trial_s)
     return SpaceSpec(params=prep, families=families, warm_starts=tuple(warm), notes=tuple(notes),
-                     family_reason=family_reason)
+                     family_reason=family_reason, trial_seconds=statistics.median(costs) if costs else None)
 
 
 __all__ = ["FAMILY_NAMES", "REFERENCE_BUDGET_S", "build_space"]

@@ -127,6 +127,7 @@ class SpaceSpec:
     warm_starts: tuple[Mapping[str, Any], ...] = ()
     notes: tuple[str, ...] = ()
     family_reason: str = ""
+    trial_seconds: float | None = None  # the builder's estimate of a typical trial, from the cost probes
 
     def sample(self, trial: optuna.Trial) -> dict[str, Any]:
         """Draw one config through the trial (TPE sees the conditional structure)."""
@@ -216,6 +217,7 @@ class SpaceSpec:
             "family_reason": self.family_reason,
             "warm_starts": [dict(w) for w in self.warm_starts],
             "notes": list(self.notes),
+            **({"trial_seconds": self.trial_seconds} if self.trial_seconds is not None else {}),
         }
 
     def to_json(self) -> str:
@@ -237,6 +239,7 @@ class SpaceSpec:
             warm_starts=tuple(data.get("warm_starts", ())),
             notes=tuple(data.get("notes", ())),
             family_reason=data.get("family_reason", ""),
+            trial_seconds=data.get("trial_seconds"),
         )
 
     @classmethod
