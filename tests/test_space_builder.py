@@ -437,3 +437,17 @@ def test_warm_starts_and_sampled_configs_build_and_fit() -> None:
 def test_without_a_budget_costs_are_weighed_against_the_reference_budget() -> None:
     space = _space("small", budget=None)
     assert "reference" in space.family_reason
+
+
+def test_a_family_too_slow_on_every_row_trains_on_a_row_sample_that_fits() -> None:
+    # 30,000 rows, 60 s: 20 boosting rounds on every row would pass a third of the budget.
+    space = _space("large", budget=60.0, costs=dict(CHEAP, hist_gb=300.0))
+    rows = space.families["hist_gb"].params["rows"]
+    assert rows.kind == "fixed" and 2_000 <= rows.value < 24_000
+    assert "training rows of each fold" in space.families["hist_gb"].reason
+    assert space.families["hist_gb"].params["max_iter"].high >= 20
+
+
+def test_no_row_sample_when_the_sample_would_be_too_small_to_judge() -> None:
+    space = _space("small", budget=60.0, costs=dict(CHEAP, extra_trees=100.0))
+    assert "extra_trees" not in space.families

@@ -121,12 +121,14 @@ class CrossValidationObjective:
         return describe_step(step, len(self.folds))
 
     def __call__(self, config: Mapping[str, Any], report: Report) -> TrialResult:
-        from tunelab.models import build_pipeline
+        from tunelab.models import build_pipeline, capped_rows, row_cap
 
         X, y = self.dataset.X, self.dataset.y
+        cap = row_cap(config)
         scores: list[float] = []
         started = time.perf_counter()
         for fold, (train, test) in enumerate(self.folds, start=1):
+            train = capped_rows(train, y, self.dataset.task, cap, self.seed + fold)
             pipeline = build_pipeline(config, self.dataset.roles, self.cardinality, self.dataset.task,
                                       seed=self.seed, n_threads=self.n_threads)
             with warnings.catch_warnings(), threadpool_limits(self.n_threads):
@@ -144,7 +146,8 @@ class CrossValidationObjective:
             value=float(np.mean(scores)),
             fold_scores=scores,
             extras={"fold_std": float(np.std(scores)), "fit_seconds": time.perf_counter() - started,
-                    "fidelity": f"{len(scores)}/{len(self.folds)} folds"},
+                    "fidelity": f"{len(scores)}/{len(self.folds)} folds"
+                                + (f", {cap} training rows per fold" if cap else "")},
         )
 
 

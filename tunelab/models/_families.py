@@ -12,6 +12,7 @@ from typing import Any, Callable, Iterable, Mapping
 from sklearn.pipeline import Pipeline
 
 from tunelab.errors import InputError
+from tunelab.models._row_cap import ROWS_KEY
 from tunelab.models._preprocess import build_preprocessor
 
 
@@ -170,6 +171,7 @@ def build_pipeline(
         raise InputError(f"unknown model family '{family_name}'", f"families are: {', '.join(FAMILIES)}")
     family = FAMILIES[family_name]
     params = family_params(config, family_name)
+    params.pop(ROWS_KEY, None)  # how many rows to train on is the caller's business (see _row_cap)
     preprocess = build_preprocessor(
         roles, cardinality, style=family.style, task=task,
         numeric_transform=str(params.get("num_transform", "standard")),

@@ -15,7 +15,7 @@ from tunelab import __version__
 from tunelab.data import clean_column, load_dataset, read_table
 from tunelab.engine import Clock, SystemClock, trial_state
 from tunelab.errors import InputError, ModelFileError, StudyStateError
-from tunelab.models import build_pipeline
+from tunelab.models import build_pipeline, capped_rows, row_cap
 from tunelab.models._model_file import check_columns, load_pipeline, read_meta, write_model_file
 from tunelab.space import SpaceSpec
 from tunelab.store import Store
@@ -80,7 +80,8 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
                                   dataset.task, seed=record.seed, n_threads=1)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            pipeline.fit(dataset.X, dataset.y)
+            rows = capped_rows(np.arange(dataset.n_rows), dataset.y, dataset.task, row_cap(config), record.seed)
+            pipeline.fit(dataset.X.iloc[rows], dataset.y[rows])  # the size the search measured
         meta = {
             "study": record.name, "trial": chosen.number, "metric": record.metric, "direction": record.direction,
             "cv_score": chosen.value, "fold_scores": chosen.user_attrs.get("fold_scores"),

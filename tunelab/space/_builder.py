@@ -22,7 +22,7 @@ from __future__ import annotations
 
 import math
 import statistics
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
 import numpy as np
@@ -30,6 +30,7 @@ import numpy as np
 from tunelab.data import Dataset
 from tunelab.data._metafeatures import MetaFeatures, scaled_cost
 from tunelab.models._families import MLP_RUNGS
+from tunelab.models._row_cap import ROWS_KEY
 from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
 from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec
 
@@ -67,6 +68,8 @@ _SVM_MAX_ROWS = 20_000  # kernel matrix grows with rows squared; common practice
 _KNN_MAX_WIDTH = 50  # distances lose contrast in many dimensions; common practice, no source
 _WARM_SHARE = 0.5  # warm starts may plan up to half the budget; the rest is for the search
 _TRIALS_PER_FAMILY = 3  # trials at its centre each kept family must have room for
+_MIN_SAMPLE_ROWS = 2_000  # fewer training rows than this are too few to judge a family by; no source
+_SAMPLE_ROOM = 3.0  # a row sample leaves room for about 60 rounds or trees, not just the minimum 20
 _SKEW_HIGH = 1.0  # |skewness| above 1 is "highly skewed" (Bulmer 1979, Principles of Statistics; from memory)
 _IMBALANCE_HIGH = 3.0  # largest class over smallest; common practice, no source
 _NOISY_SIGNAL = 0.6  # best landmarker gain over guessing below this: a noisy target; no source
@@ -366,6 +369,33 @@ def _hist_gb(facts: _Facts, meta: MetaFeatures) -> _Decision:
     return d
 
 
+def _on_fewer_rows(decide: Any, facts: _Facts, meta: MetaFeatures) -> _Decision:
+    """The family on every row when a trial fits the budget; else on a row sample, when that is the only way.
+
+    ``decide(facts, meta)`` is a family's rule (boosting, forests); it leaves a family out when
+    even its smallest model (20 rounds or trees) would pass the trial share of the budget.  The
+    row sample is sized so that about three times that model fits (fits grow about linearly
+    with rows for these families), and the family's ranges are then planned for the sample.
+    """
+    whole = decide(facts, meta)
+    if whole.include or not whole.trial_s:
+        return whole
+    allowed = _TRIAL_SHARE_MAX * facts.budget - facts.n_folds * _FIT_OVERHEAD_S
+    rows = int(facts.n_fit * max(0.0, allowed) / (_SAMPLE_ROOM * whole.trial_s))
+    if rows < _MIN_SAMPLE_ROWS or rows >= facts.n_fit:
+        return whole
+    sample = replace(facts, n_fit=rows)  # n_rows stays: the cost probes extrapolate from it
+    part = decide(sample, meta)
+    if not part.include:
+        return whole
+    part.reason += f"; trained on {rows} of the {facts.n_fit} training rows of each fold"
+    part.params[ROWS_KEY] = ParamSpec(
+        "fixed", value=rows, reason=f"on all {facts.n_fit} rows even the smallest model would pass "
+                                    f"{_TRIAL_SHARE_MAX:.0%} of the {_budget_words(facts)}; a stratified "
+                                    f"sample of {rows} rows fits (export refits on the same number)")
+    return part
+
+
 def _forest(family: str, facts: _Facts, meta: MetaFeatures) -> _Decision:
     cap = _work_cap(family, facts, meta, 100, 500)
     if cap is not None and cap < 20:
@@ -640,7 +670,9 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
     """
     facts = _facts(dataset, meta, budget_seconds, metric)
     mlp, mlp_notes = _mlp(facts, meta)
-    decisions = [_hist_gb(facts, meta), _forest("random_forest", facts, meta), _forest("extra_trees", facts, meta),
+    decisions = [_on_fewer_rows(_hist_gb, facts, meta),
+                 _on_fewer_rows(lambda f, m: _forest("random_forest", f, m), facts, meta),
+                 _on_fewer_rows(lambda f, m: _forest("extra_trees", f, m), facts, meta),
                  _linear(facts, meta), _svm(facts, meta), mlp, _knn(facts, meta)]
     kept, family_reason = _select(decisions, facts)
     prep, prep_centre = _prep_params(dataset, meta, facts)
