@@ -45,6 +45,13 @@ def test_status_of_one_study_shows_best_config_spread_and_budget(cli, finished_s
     assert "± " in text and "across folds" in text and "budget:" in text
 
 
+def test_status_says_which_families_are_searched_and_how_trials_are_pruned(cli, finished_study, store_path):
+    detail = json.loads(cli("status", "demo", "--store", str(store_path), "--json").out)
+    assert "linear" in detail["families"]
+    assert detail["pruning"] == "auto: off (about 4 trials expected)"  # --trials 4: too few to rank
+    assert "search: " in cli("status", "demo", "--store", str(store_path)).out
+
+
 def test_resume_with_more_trials_continues_the_same_study(cli, finished_study, store_path):
     result = cli("resume", "demo", "--more-trials", "2", "--store", str(store_path), "--json")
     assert result.code == 0, result.err

@@ -109,6 +109,8 @@ def print_detail(d: Any) -> None:
     cpu = format_duration(d.cpu_spent) + (f" / {format_duration(d.cpu_budget)}" if d.cpu_budget else "")
     left = f", {format_duration(d.wall_left)} left" if d.wall_left is not None else ""
     out.print(f"budget: time {_budget(line.wall_spent, line.wall_budget, line.trials_budget)}{left}; CPU {cpu}")
+    if d.families:
+        out.print(f"search: {', '.join(d.families)}; pruning {d.pruning}")
     if d.best_trial is not None:
         b = d.best_trial
         spread = f" ± {b.fold_std:.4f} across folds" if b.fold_std is not None else ""

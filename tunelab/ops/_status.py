@@ -6,6 +6,8 @@ from dataclasses import asdict, dataclass, field
 from typing import Any
 
 from tunelab.engine import trial_state
+from tunelab.engine._pruning import choose_pruning
+from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord
 
 STATES = ("complete", "pruned", "failed", "interrupted", "running", "waiting")
@@ -57,6 +59,8 @@ class StudyDetail:
     wall_left: float | None
     phases: list[dict[str, Any]] = field(default_factory=list)
     workers: list[dict[str, Any]] = field(default_factory=list)
+    pruning: str = ""  # the rule in force: "median", or "auto: median (about 24 trials expected)"
+    families: list[str] = field(default_factory=list)  # of the current phase's space
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -85,10 +89,21 @@ def study_detail(name: str, store: str | None, top: int = 5) -> StudyDetail:
                     "wall_seconds": round(ln.wall_seconds, 1), "stop_reason": ln.stop_reason} for ln in launches]
         phases = [{"phase": p.number, "created": p.created_at, "reason": p.reason, "first_trial": p.first_trial}
                   for p in st.phases(record.id)]
+        space = SpaceSpec.from_json(st.phases(record.id)[-1].space_json)
         return StudyDetail(line=line, data_path=record.data_path, target=record.target, seed=record.seed,
                            best_trial=_trial_line(ranked[0]) if ranked else None,
                            top=[_trial_line(t) for t in ranked[:top]], cpu_spent=cpu, cpu_budget=record.budget_cpu,
-                           wall_left=left_wall, phases=phases, workers=workers)
+                           wall_left=left_wall, phases=phases, workers=workers, pruning=_pruning_words(record),
+                           families=list(space.families))
+
+
+def _pruning_words(record: StudyRecord) -> str:
+    kind = str(record.settings.get("pruning", "auto"))
+    if kind != "auto":
+        return kind
+    expected = record.settings.get("expected_trials")
+    rule = choose_pruning(expected)
+    return f"auto: {rule}" + (f" (about {expected:.0f} trials expected)" if expected is not None else "")
 
 
 def _trials(st: Store, record: StudyRecord) -> list[Any]:
