@@ -1,11 +1,12 @@
 """Parallel workers on one study: trials per minute at 1, 2, 4 and 8 processes, SQLite beside PostgreSQL.
 
 Run from the repository root (5-9 minutes with the defaults, most of it starting worker processes on a
-busy machine; ``--real`` about 3 minutes)::
+busy machine; ``--real`` about 3 minutes; ``--file-backends`` about 6)::
 
     python benchmarks/scaling.py                            # sleep objective, 20 s per point
     python benchmarks/scaling.py --budget 30s --jobs 1,2,4,8 --stores sqlite,postgres
     python benchmarks/scaling.py --real                     # tunelab run --jobs 1 vs --jobs 2, 60 s each
+    python benchmarks/scaling.py --file-backends            # plain optuna: SQLite WAL vs journal file
 
 Sleep mode (the default) measures what the store and the sampler cost a worker, not what the
 machine can compute: the objective sleeps ``--sleep`` seconds (0.25 by default) and returns a
@@ -42,6 +43,22 @@ the box (recorded per trial by the engine) is printed beside them as a measure o
 ``--repeats`` averages pairs run in alternating order.  Target (the project's own): at least
 1.7x on a 2-core machine.  Fits use the CPU, so other people's load on a shared machine lowers
 it: the load average (``uptime``) is printed before and after.
+
+``--file-backends`` decides which file backend several processes should share, by measurement:
+plain optuna (no tunelab: no ledger, no heartbeat) runs the sleep objective above on two
+backends side by side, each a fresh file per point: ``RDBStorage("sqlite:///FILE")`` with a
+30 s busy timeout (the sqlite3 driver's ``timeout``) on a file switched to WAL once
+(``PRAGMA journal_mode=WAL``) before the workers start, and ``JournalStorage(JournalFileBackend(FILE))``
+(its default symlink lock; every append is fsynced).  For each worker count the parent creates
+the study; N "spawn" processes each open their own storage, load the study with
+``tunelab.ops._run.make_sampler("tpe", seed + worker index)``, wait at a barrier, then call
+``study.optimize(objective, timeout=budget)``.  The box runs from the first worker's release to
+that plus the budget; trials per minute and the ratio to one worker are counted as above, read
+back through a fresh storage object.  Errors are exceptions out of a worker, warnings logged by
+optuna or SQLAlchemy, trials not complete, and non-zero exit codes; "locked" counts those that
+say "database is locked".  tunelab's own SQLite path (the sleep mode's point above, same budget
+and worker counts) runs as a third column for comparison: what the ledger and heartbeats add on
+top.  The verdict line names the backend with more trials per minute at the largest worker count.
 
 Raw results go to ``benchmarks/results/scaling-*.json`` (not committed).  One run on a shared
 machine is one sample.
@@ -383,6 +400,239 @@ def sleep_mode(args: argparse.Namespace, budget: float) -> list[dict[str, Any]]:
     return rows
 
 
+# --------------------------------------------------------------------------- file-backends mode
+
+
+FILE_BACKENDS = ("sqlite_wal", "journal", "tunelab")
+FILE_TITLES = {"sqlite_wal": "SQLite WAL", "journal": "journal file", "tunelab": "tunelab SQLite"}
+SQLITE_BUSY_TIMEOUT_SECONDS = 30  # the sqlite3 driver's busy timeout, passed as connect_args
+
+
+def plain_storage(backend: str, path: str) -> Any:
+    """The optuna storage a plain-optuna worker opens: each process builds its own, as separate machines would."""
+    import optuna
+
+    if backend == "sqlite_wal":
+        return optuna.storages.RDBStorage(f"sqlite:///{path}",
+                                          engine_kwargs={"connect_args": {"timeout": SQLITE_BUSY_TIMEOUT_SECONDS}})
+    if backend == "journal":
+        return optuna.storages.JournalStorage(optuna.storages.journal.JournalFileBackend(path))
+    raise ValueError(f"unknown file backend {backend!r}")
+
+
+class PlainSleepObjective:
+    """The sleep objective as a plain optuna objective: same space, same sleep, same value as ``SleepObjective``."""
+
+    def __init__(self, seconds: float = 0.25) -> None:
+        self.seconds = seconds
+        self.calls = 0
+        self.first_cpu = self.last_cpu = 0.0
+
+    def __call__(self, trial: Any) -> float:
+        now = time.process_time()
+        if self.calls == 0:
+            self.first_cpu = now
+        self.last_cpu, self.calls = now, self.calls + 1
+        x = trial.suggest_float("x", 0.0, 1.0)
+        y = trial.suggest_float("y", 0.0, 1.0)
+        kind = trial.suggest_categorical("kind", ["a", "b", "c"])
+        time.sleep(self.seconds)
+        return (x - 0.3) ** 2 + (y - 0.7) ** 2 + 0.1 * (kind != "b")
+
+    def steady_cpu(self) -> tuple[float, int]:
+        """CPU seconds between the first and the last call, and the number of trial cycles between them."""
+        return self.last_cpu - self.first_cpu, max(0, self.calls - 1)
+
+
+def _plain_worker_main(backend: str, path: str, index: int, seed: int, budget: float, sleep_seconds: float,
+                       barrier: Any, results: Any) -> None:
+    """One plain-optuna worker: open the storage and load the study, wait for the others, then optimize."""
+    import warnings
+
+    errors: list[str] = []
+    summary: dict[str, Any] = {"pid": os.getpid(), "index": index}
+    try:
+        import optuna
+
+        from tunelab.ops._run import make_sampler
+
+        optuna.logging.set_verbosity(optuna.logging.WARNING)  # "Trial N finished" lines are not errors
+        handler = _ErrorLog()
+        for name in ("optuna", "sqlalchemy"):
+            logging.getLogger(name).addHandler(handler)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", optuna.exceptions.ExperimentalWarning)
+            study = optuna.load_study(study_name=STUDY, storage=plain_storage(backend, path),
+                                      sampler=make_sampler("tpe", seed + index))
+        objective = PlainSleepObjective(sleep_seconds)
+        barrier.wait(timeout=BARRIER_TIMEOUT_SECONDS)
+        summary["started_epoch"] = time.time()
+        cpu0 = time.process_time()
+        try:
+            study.optimize(objective, timeout=budget, catch=())
+        finally:
+            summary.update(calls=objective.calls, cpu_seconds=time.process_time() - cpu0,
+                           steady_cpu=objective.steady_cpu())
+        errors.extend(handler.messages)
+    except BaseException as exc:  # every failure goes back to the parent as text
+        errors.append(f"worker raised {type(exc).__name__}: {str(exc).splitlines()[0][:300] if str(exc) else ''}")
+        errors.append(traceback.format_exc(limit=3)[-1500:])
+    summary["errors"] = errors
+    results.put(summary)
+
+
+def run_plain_point(backend: str, jobs: int, budget: float, sleep_seconds: float, seed: int,
+                    workdir: Path) -> dict[str, Any]:
+    """One file backend, one worker count: a fresh file, one study, ``jobs`` plain-optuna processes."""
+    import sqlite3
+    import warnings
+
+    import optuna
+
+    ctx = mp.get_context("spawn")
+    load_before = os.getloadavg()[0]
+    path = str(workdir / f"{backend}-{jobs}.{'db' if backend == 'sqlite_wal' else 'log'}")
+    journal_mode = None
+    if backend == "sqlite_wal":
+        # WAL is a property of the file: set once here, every later connection uses it.
+        conn = sqlite3.connect(path)
+        try:
+            journal_mode = conn.execute("PRAGMA journal_mode=WAL").fetchone()[0]
+        finally:
+            conn.close()
+    optuna.logging.set_verbosity(optuna.logging.WARNING)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", optuna.exceptions.ExperimentalWarning)
+        storage = plain_storage(backend, path)
+        optuna.create_study(study_name=STUDY, storage=storage, direction="minimize")
+    barrier = ctx.Barrier(jobs + 1)
+    results = ctx.Queue()
+    procs = [ctx.Process(target=_plain_worker_main,
+                         args=(backend, path, i, seed, budget, sleep_seconds, barrier, results))
+             for i in range(jobs)]
+    for proc in procs:
+        proc.start()
+    errors: list[str] = []
+    try:
+        barrier.wait(timeout=BARRIER_TIMEOUT_SECONDS)
+    except Exception as exc:
+        errors.append(f"workers never all started: {type(exc).__name__}")
+    released = time.time()
+    summaries = _collect(procs, results, released + budget + GRACE_SECONDS, errors)
+    walls = time.time() - released
+    for summary in summaries:
+        errors.extend(summary["errors"])
+    # Read back with a fresh storage object: what another process would see, not this one's cache.
+    from optuna.trial import TrialState
+
+    trials = optuna.load_study(study_name=STUDY, storage=plain_storage(backend, path)).get_trials(deepcopy=False)
+    box_start = min((s["started_epoch"] for s in summaries if "started_epoch" in s), default=released)
+    box_end = box_start + budget
+    states = Counter(t.state.name.lower() for t in trials)
+    complete = [t for t in trials if t.state == TrialState.COMPLETE]
+    in_box = [t for t in complete if t.datetime_complete is not None and t.datetime_complete.timestamp() <= box_end]
+    last = max((t.datetime_complete.timestamp() for t in complete if t.datetime_complete), default=box_start)
+    params = Counter(json.dumps(t.params, sort_keys=True) for t in trials if t.params)
+    # optimize(timeout=) stops between trials, so every trial should end complete; anything else is an error.
+    errors.extend(f"trial {t.number} {t.state.name.lower()}" for t in trials if t.state != TrialState.COMPLETE)
+    n_complete = len(in_box)
+    cpu = sum(s.get("cpu_seconds", 0.0) for s in summaries)
+    calls = sum(s.get("calls", 0) for s in summaries)
+    steady_cpu = sum(s.get("steady_cpu", (0.0, 0))[0] for s in summaries)
+    steady_cycles = sum(s.get("steady_cpu", (0.0, 0))[1] for s in summaries)
+    return {
+        "store": backend, "workers": jobs, "budget_seconds": budget, "sleep_seconds": sleep_seconds,
+        "journal_mode": journal_mode, "file_bytes": os.path.getsize(path),
+        "complete_in_box": n_complete, "complete_late": len(complete) - n_complete, "states": dict(states),
+        "last_complete_after_box_start": round(last - box_start, 2),
+        "same_config": sum(n - 1 for n in params.values() if n > 1),
+        "per_minute": 60.0 * n_complete / budget,
+        "overhead_ms": 1000.0 * (jobs * budget / n_complete - sleep_seconds) if n_complete else None,
+        "worker_trials": sorted(s.get("calls", 0) for s in summaries),
+        "cpu_ms_per_trial": 1000.0 * cpu / calls if calls else None,
+        "steady_cpu_ms_per_trial": 1000.0 * steady_cpu / steady_cycles if steady_cycles else None,
+        "cpu_cores": cpu / budget,
+        "seconds_to_last_exit": round(walls, 2),
+        "errors": len(errors), "locked_errors": sum("locked" in e.lower() for e in errors),
+        "error_texts": errors[:20],
+        "load_before": load_before, "load_after": os.getloadavg()[0],
+    }
+
+
+def print_file_table(rows: list[dict[str, Any]], backends: list[str], jobs: list[int]) -> str:
+    """Workers down the side; per backend: trials per minute, ratio to one worker, errors, 'locked'; then the verdict."""
+    by = {(r["store"], r["workers"]): r for r in rows}
+    head = f"{'workers':>7}"
+    for b in backends:
+        head += f" | {FILE_TITLES[b] + ' trials/min':>25} {'ratio':>6} {'errors':>6} {'locked':>6}"
+    print(head)
+    print("-" * len(head))
+
+    def ratio(b: str, n: int) -> float:
+        r, one = by.get((b, n)), by.get((b, 1))
+        return r["per_minute"] / one["per_minute"] if r and one and one["per_minute"] else float("nan")
+
+    for n in jobs:
+        line = f"{n:>7}"
+        for b in backends:
+            r = by.get((b, n))
+            if r is None:
+                line += f" | {'-':>25} {'-':>6} {'-':>6} {'-':>6}"
+                continue
+            line += f" | {r['per_minute']:>25.1f} {ratio(b, n):>5.2f}x {r['errors']:>6d} {r['locked_errors']:>6d}"
+        print(line)
+    print()
+    for r in rows:
+        print(f"  {FILE_TITLES[r['store']]:<14} {r['workers']} workers: {r['complete_in_box']} complete in the box, "
+              f"{r['complete_late']} after it (last at {r['last_complete_after_box_start']:.1f} s), "
+              f"per worker {r['worker_trials']}, overhead {_fmt(r['overhead_ms'])} ms/trial, "
+              f"worker CPU {_fmt(r['cpu_ms_per_trial'])} ms/trial ({_fmt(r['steady_cpu_ms_per_trial'])} in steady "
+              f"state; {r['cpu_cores']:.2f} cores), same cfg {r['same_config']}, "
+              f"load {r['load_before']:.2f} -> {r['load_after']:.2f}")
+        for text in r["error_texts"][:5]:
+            print(f"      {text}")
+    n = max(jobs)
+    wal, jrn = by.get(("sqlite_wal", n)), by.get(("journal", n))
+    if not (wal and jrn and wal["per_minute"] and jrn["per_minute"]):
+        verdict = f"verdict: no comparison at {n} workers (a backend finished no trial)"
+    else:
+        best, other = (jrn, wal) if jrn["per_minute"] > wal["per_minute"] else (wal, jrn)
+        verdict = (f"verdict: at {n} workers {FILE_TITLES[best['store']]} scaled better: "
+                   f"{best['per_minute']:.1f} vs {other['per_minute']:.1f} trials/min "
+                   f"({best['per_minute'] / other['per_minute']:.2f}x); ratio to 1 worker "
+                   f"{ratio(best['store'], n):.2f}x vs {ratio(other['store'], n):.2f}x; "
+                   f"errors {best['errors']} vs {other['errors']}")
+    print(f"\n{verdict}")
+    return verdict
+
+
+def file_backends_mode(args: argparse.Namespace, budget: float) -> list[dict[str, Any]]:
+    """Plain optuna on SQLite (WAL, busy timeout) and on the journal file, with tunelab's SQLite path beside them."""
+    jobs = [int(j) for j in args.jobs.split(",")]
+    print(f"file backends, plain optuna: sleep objective {args.sleep} s, budget {budget:.0f} s per point, "
+          f"workers {jobs}; tunelab's own SQLite path beside them")
+    uptime_before = _uptime()
+    print(f"uptime before: {uptime_before}")
+    rows = []
+    with tempfile.TemporaryDirectory(prefix="tl-scaling-files-") as tmp:
+        # Interleave backends at each worker count, so a burst of load hits all alike.
+        for n in jobs:
+            for b in FILE_BACKENDS:
+                if b == "tunelab":
+                    row = run_point("sqlite", n, budget, args.sleep, args.seed, Path(tmp))
+                    row["store"] = "tunelab"
+                else:
+                    row = run_plain_point(b, n, budget, args.sleep, args.seed, Path(tmp))
+                print(f"  {FILE_TITLES[b]:<14} {n} workers: {row['per_minute']:.1f} trials/min, "
+                      f"{row['errors']} errors", flush=True)
+                rows.append(row)
+    uptime_after = _uptime()
+    print(f"uptime after:  {uptime_after}\n")
+    verdict = print_file_table(rows, list(FILE_BACKENDS), jobs)
+    rows.append({"summary": True, "verdict": verdict, "uptime_before": uptime_before, "uptime_after": uptime_after})
+    return rows
+
+
 # --------------------------------------------------------------------------- real mode
 
 
@@ -502,6 +752,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--sleep", type=float, default=0.25, help="seconds the sleep objective sleeps")
     parser.add_argument("--seed", type=int, default=0)
     parser.add_argument("--real", action="store_true", help="tunelab run --jobs 1 vs --jobs 2 on a real data set")
+    parser.add_argument("--file-backends", action="store_true",
+                        help="plain optuna on SQLite WAL vs the journal file, tunelab's SQLite beside them")
     parser.add_argument("--dataset", default="breast_cancer", help="a name from benchmarks/datasets.py (--real)")
     parser.add_argument("--pruning", default="auto", help="--pruning passed to tunelab run (--real)")
     parser.add_argument("--repeats", type=int, default=1, help="pairs of runs, order alternating (--real)")
@@ -515,10 +767,14 @@ def main(argv: list[str] | None = None) -> int:
     # One thread per process, as tunelab's own trials run: spin-waiting pools on 2 cores measure the neighbours.
     for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
         os.environ.setdefault(name, "1")
-    rows = real_mode(args, budget) if args.real else sleep_mode(args, budget)
+    if args.real and args.file_backends:
+        raise SystemExit("--real and --file-backends are separate modes; pass one")
+    mode = "real" if args.real else "file-backends" if args.file_backends else "sleep"
+    run = {"real": real_mode, "file-backends": file_backends_mode, "sleep": sleep_mode}[mode]
+    rows = run(args, budget)
     args.results_dir.mkdir(parents=True, exist_ok=True)
     stamp = datetime.now(timezone.utc).strftime("%Y%m%dT%H%M%SZ")
-    out = args.results_dir / f"scaling-{'real' if args.real else 'sleep'}-{budget:.0f}s-{stamp}.json"
+    out = args.results_dir / f"scaling-{mode}-{budget:.0f}s-{stamp}.json"
     out.write_text(json.dumps(rows, indent=2, default=str), encoding="utf-8")
     print(f"\nraw results: {out}")
     return 0
