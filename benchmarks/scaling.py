@@ -82,7 +82,7 @@ from collections.abc import Iterator, Mapping
 from contextlib import contextmanager
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 if __package__ in (None, ""):  # run as a script: make `benchmarks` importable
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
@@ -228,22 +228,9 @@ def run_point(kind: str, jobs: int, budget: float, sleep_seconds: float, seed: i
     with fresh_store(kind, workdir, f"{kind}-{jobs}") as store:
         create_objective_study(STUDY, benchmark_space(), Budget(wall_seconds=budget), store=store,
                                direction="minimize", seed=seed, sampler="tpe", pruning="off")
-        barrier = ctx.Barrier(jobs + 1)
-        results = ctx.Queue()
-        procs = [ctx.Process(target=_worker_main, args=(store, STUDY, sleep_seconds, barrier, results))
-                 for _ in range(jobs)]
-        for proc in procs:
-            proc.start()
-        errors: list[str] = []
-        try:
-            barrier.wait(timeout=BARRIER_TIMEOUT_SECONDS)
-        except Exception as exc:
-            errors.append(f"workers never all started: {type(exc).__name__}")
-        released = time.time()
-        summaries = _collect(procs, results, released + budget + GRACE_SECONDS, errors)
-        walls = time.time() - released
-        for summary in summaries:
-            errors.extend(summary["errors"])
+        summaries, errors, released, walls = _release_workers(
+            ctx, jobs, budget, lambda i, barrier, results: (_worker_main, (store, STUDY, sleep_seconds, barrier,
+                                                                           results)))
         measured = measure_store(store, STUDY, budget)
     errors.extend(measured.pop("trial_errors"))
     complete = measured["complete_in_box"]
@@ -268,6 +255,34 @@ def run_point(kind: str, jobs: int, budget: float, sleep_seconds: float, seed: i
         "error_texts": errors[:20],
         "load_before": load_before, "load_after": os.getloadavg()[0],
     }
+
+
+def _release_workers(ctx: Any, jobs: int, budget: float,
+                     make: Callable[[int, Any, Any], tuple[Callable[..., None], tuple[Any, ...]]],
+                     ) -> tuple[list[dict[str, Any]], list[str], float, float]:
+    """Start ``jobs`` processes (``make(i, barrier, results)`` gives target and args), release them at once.
+
+    Returns their summaries, the errors seen, the release time and the seconds until all reported.
+    """
+    barrier = ctx.Barrier(jobs + 1)
+    results = ctx.Queue()
+    procs = []
+    for i in range(jobs):
+        target, args = make(i, barrier, results)
+        procs.append(ctx.Process(target=target, args=args))
+    for proc in procs:
+        proc.start()
+    errors: list[str] = []
+    try:
+        barrier.wait(timeout=BARRIER_TIMEOUT_SECONDS)
+    except Exception as exc:
+        errors.append(f"workers never all started: {type(exc).__name__}")
+    released = time.time()
+    summaries = _collect(procs, results, released + budget + GRACE_SECONDS, errors)
+    walls = time.time() - released
+    for summary in summaries:
+        errors.extend(summary["errors"])
+    return summaries, errors, released, walls
 
 
 def _collect(procs: list[Any], results: Any, deadline: float, errors: list[str]) -> list[dict[str, Any]]:
@@ -505,23 +520,9 @@ def run_plain_point(backend: str, jobs: int, budget: float, sleep_seconds: float
         warnings.simplefilter("ignore", optuna.exceptions.ExperimentalWarning)
         storage = plain_storage(backend, path)
         optuna.create_study(study_name=STUDY, storage=storage, direction="minimize")
-    barrier = ctx.Barrier(jobs + 1)
-    results = ctx.Queue()
-    procs = [ctx.Process(target=_plain_worker_main,
-                         args=(backend, path, i, seed, budget, sleep_seconds, barrier, results))
-             for i in range(jobs)]
-    for proc in procs:
-        proc.start()
-    errors: list[str] = []
-    try:
-        barrier.wait(timeout=BARRIER_TIMEOUT_SECONDS)
-    except Exception as exc:
-        errors.append(f"workers never all started: {type(exc).__name__}")
-    released = time.time()
-    summaries = _collect(procs, results, released + budget + GRACE_SECONDS, errors)
-    walls = time.time() - released
-    for summary in summaries:
-        errors.extend(summary["errors"])
+    summaries, errors, released, walls = _release_workers(
+        ctx, jobs, budget, lambda i, barrier, results: (_plain_worker_main, (backend, path, i, seed, budget,
+                                                                             sleep_seconds, barrier, results)))
     # Read back with a fresh storage object: what another process would see, not this one's cache.
     from optuna.trial import TrialState
 
