@@ -188,8 +188,7 @@ def _worker_main(store: str, study: str, sleep_seconds: float, barrier: Any, res
                        cpu_seconds=time.process_time() - cpu0, steady_cpu=objective.steady_cpu())
         errors.extend(handler.messages)
     except BaseException as exc:  # every failure goes back to the parent as text
-        errors.append(f"worker raised {type(exc).__name__}: {str(exc).splitlines()[0][:300] if str(exc) else ''}")
-        errors.append(traceback.format_exc(limit=3)[-1500:])
+        errors.extend(_failure_lines(exc))
     summary["errors"] = errors
     results.put(summary)
 
@@ -255,6 +254,12 @@ def run_point(kind: str, jobs: int, budget: float, sleep_seconds: float, seed: i
         "error_texts": errors[:20],
         "load_before": load_before, "load_after": os.getloadavg()[0],
     }
+
+
+def _failure_lines(exc: BaseException) -> list[str]:
+    """A worker's exception as two lines of text for the parent: what was raised, and where."""
+    first = str(exc).splitlines()[0][:300] if str(exc) else ""
+    return [f"worker raised {type(exc).__name__}: {first}", traceback.format_exc(limit=3)[-1500:]]
 
 
 def _release_workers(ctx: Any, jobs: int, budget: float,
@@ -490,8 +495,7 @@ def _plain_worker_main(backend: str, path: str, index: int, seed: int, budget: f
                            steady_cpu=objective.steady_cpu())
         errors.extend(handler.messages)
     except BaseException as exc:  # every failure goes back to the parent as text
-        errors.append(f"worker raised {type(exc).__name__}: {str(exc).splitlines()[0][:300] if str(exc) else ''}")
-        errors.append(traceback.format_exc(limit=3)[-1500:])
+        errors.extend(_failure_lines(exc))
     summary["errors"] = errors
     results.put(summary)
 
