@@ -59,6 +59,22 @@ def first_fold_score(dataset, config, metric):
     return score(metric, dataset.y[test], pipeline, dataset.X.iloc[test], dataset.classes)
 
 
+# ------------------------------------------------------------------ the warm-up before forked trials
+
+def test_a_warm_up_in_the_parent_leaves_every_trial_score_unchanged(dataset):
+    objective = CrossValidationObjective(dataset, METRICS["roc_auc"], seed=0, n_folds=3)
+    configs = [{"family": "hist_gb", "hist_gb.max_iter": 40}, {"family": "linear", "linear.C": 0.5},
+               {"family": "random_forest", "random_forest.n_estimators": 30}]
+    before = [objective(c, lambda step, value: None).fold_scores for c in configs]
+    objective.warm_up(configs)
+    assert [objective(c, lambda step, value: None).fold_scores for c in configs] == before
+
+
+def test_a_warm_up_skips_a_config_that_cannot_be_built(dataset):
+    objective = CrossValidationObjective(dataset, METRICS["roc_auc"], seed=0, n_folds=3)
+    objective.warm_up([{"family": "no_such_family"}, {"family": "linear"}])  # no error: the trial reports it
+
+
 # ------------------------------------------------------------------ reports within the first fold
 
 def test_boosting_reports_twice_within_the_first_fold_then_after_each_fold_but_the_last(dataset):

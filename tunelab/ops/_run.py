@@ -192,6 +192,7 @@ def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, spa
     objective = CrossValidationObjective(dataset, metric, seed=record.seed, n_threads=threads,
                                          n_folds=record.settings.get("n_folds"))
     preload(space.families or ["hist_gb"], record.task)
+    objective.warm_up(_warm_up_configs(space))
     runner = runner_factory(objective)
     with stop_on_signals():
         if jobs > 1:
@@ -209,6 +210,16 @@ def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, spa
     if summary.best_trial is not None:
         best = dict(study.trials[summary.best_trial].params)
     return RunResult(record.name, store.location.display(), record.metric, record.direction, summary, best)
+
+
+def _warm_up_configs(space: SpaceSpec) -> list[dict[str, Any]]:
+    """One config per family of the space, for the objective's warm-up: its warm start, or the family's defaults."""
+    configs: dict[str, dict[str, Any]] = {}
+    for warm in space.warm_starts:
+        configs.setdefault(str(warm.get("family", "hist_gb")), space.complete(warm))
+    for family in space.families or ["hist_gb"]:
+        configs.setdefault(family, space.complete({"family": family}))
+    return list(configs.values())
 
 
 def _expected_trials(space: SpaceSpec, budget: Budget, jobs: int) -> float | None:
