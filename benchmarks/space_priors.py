@@ -118,12 +118,16 @@ def _score(spec: datasets.DatasetSpec, test: Path, predictions: Path) -> dict[st
     return score_predictions(spec.task, truth, Predictions(frame["prediction"].to_numpy(), proba))
 
 
-def compare(name: str, budget: float, seed: int) -> dict[str, Any]:
-    """Both arms on one dataset; the arm order alternates with the dataset's position."""
+def compare(name: str, budget: float, seed: int, keep: Path | None = None) -> dict[str, Any]:
+    """Both arms on one dataset; the arm order alternates with the dataset's position.
+
+    With ``keep``, the split, spaces, stores and models stay in ``keep/<dataset>`` for a closer look.
+    """
     spec = datasets.get(name)
     order = ARMS if datasets.names().index(name) % 2 == 0 else ARMS[::-1]
     with tempfile.TemporaryDirectory(prefix=f"space-priors-{name}-") as tmp:
-        work = Path(tmp)
+        work = Path(tmp) if keep is None else keep / name
+        work.mkdir(parents=True, exist_ok=True)
         train, test = datasets.write_split(name, work, seed=seed)
         results = {arm: run_arm(arm, train, test, spec, budget, seed, work) for arm in order}
     return {"dataset": name, "task": spec.task, "metric": PRIMARY_METRIC[spec.task],
@@ -200,6 +204,7 @@ def main(argv: list[str] | None = None) -> int:
                         help="comma-separated names from benchmarks/datasets.py, or 'all'")
     parser.add_argument("--seed", type=int, default=0, help="split and search seed (default 0)")
     parser.add_argument("--results-dir", default=str(ROOT / "benchmarks" / "results"))
+    parser.add_argument("--keep", type=Path, default=None, help="keep the stores and models in this folder")
     args = parser.parse_args(argv)
     budget = parse_duration(args.budget)
     names = datasets.names() if args.datasets == "all" else [n.strip() for n in args.datasets.split(",") if n.strip()]
@@ -210,7 +215,7 @@ def main(argv: list[str] | None = None) -> int:
     rows = []
     for name in names:
         t0 = time.perf_counter()
-        rows.append(compare(name, budget, args.seed))
+        rows.append(compare(name, budget, args.seed, args.keep))
         arms = rows[-1]["arms"]
         print(f"[{name}] fixed {_fmt(arms['fixed']['score'])}  built {_fmt(arms['built']['score'])}  "
               f"({time.perf_counter() - t0:.0f} s)", flush=True)
