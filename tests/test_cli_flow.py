@@ -48,7 +48,7 @@ def test_status_of_one_study_shows_best_config_spread_and_budget(cli, finished_s
 def test_status_says_which_families_are_searched_and_how_trials_are_pruned(cli, finished_study, store_path):
     detail = json.loads(cli("status", "demo", "--store", str(store_path), "--json").out)
     assert "linear" in detail["families"]
-    assert detail["pruning"] == "auto: off (about 4 trials expected)"  # --trials 4: too few to rank
+    assert detail["pruning"] == "auto: halving (about 4 trials expected)"  # --trials 4: enough to rank
     assert "search: " in cli("status", "demo", "--store", str(store_path)).out
 
 

@@ -232,8 +232,8 @@ def test_the_median_rule_compares_with_finished_trials_at_the_same_step():
     assert ask_and_report(study, {3: 0.9}, family="linear")
 
 
-def test_a_rung_keeps_the_better_half_and_waits_for_enough_peers():
-    study = rung_study(min_peers=4)
+def test_a_rung_told_to_keep_half_keeps_the_better_half_and_waits_for_enough_peers():
+    study = rung_study(min_peers=4, keep=0.5)
     assert not ask_and_report(study, {3: 0.5})
     assert not ask_and_report(study, {3: 0.4})
     assert not ask_and_report(study, {3: 0.3})   # three values: too few to rank
@@ -242,8 +242,8 @@ def test_a_rung_keeps_the_better_half_and_waits_for_enough_peers():
     assert not ask_and_report(study, {3: 0.9})
 
 
-def test_a_textbook_rung_keeps_a_third():
-    study = rung_study(min_peers=1, keep=1 / 3)
+def test_a_default_rung_keeps_the_textbook_third():
+    study = rung_study(min_peers=1)
     for value in (0.5, 0.4):
         ask_and_report(study, {3: value})
     assert ask_and_report(study, {3: 0.45})      # 3 values: only the best goes on
@@ -273,10 +273,10 @@ def test_hyperband_brackets_start_pruning_at_later_rungs():
 
 def test_auto_pruning_follows_the_expected_trial_count():
     assert choose_pruning(None) == "halving"
-    assert choose_pruning(5) == "off"
-    assert choose_pruning(12) == "median"
+    assert choose_pruning(3) == "off"
+    assert choose_pruning(4) == choose_pruning(12) == "halving"
     assert choose_pruning(200) == "halving"
-    assert isinstance(make_pruner("auto", max_steps=5, expected_trials=5), optuna.pruners.NopPruner)
+    assert isinstance(make_pruner("auto", max_steps=5, expected_trials=3), optuna.pruners.NopPruner)
     assert isinstance(make_pruner("median", max_steps=5), MedianPruner)
     assert isinstance(make_pruner("halving", max_steps=5), RungPruner)
     assert make_pruner("hyperband", max_steps=5).brackets == 3
@@ -356,7 +356,7 @@ def test_a_killed_run_with_pruning_on_resumes_cleanly(tmp_path, small_csv):
     assert after.get("COMPLETE", 0) >= counts["COMPLETE"]
 
 
-@pytest.mark.parametrize("trial_seconds, expected, rule", [(30.0, 2.0, "off"), (5.0, 12.0, "median"),
+@pytest.mark.parametrize("trial_seconds, expected, rule", [(30.0, 2.0, "off"), (5.0, 12.0, "halving"),
                                                           (0.5, 40.0, "halving")])
 def test_auto_pruning_follows_the_trials_the_budget_is_expected_to_finish(tmp_path, small_csv, trial_seconds,
                                                                           expected, rule):

@@ -144,7 +144,7 @@ def run(
     space: Optional[Path] = typer.Option(None, "--space", help="Search space JSON to use instead of the built one."),
     pruning: str = typer.Option("auto", "--pruning",
                                 help="auto, off, median, halving or hyperband. auto counts the trials the budget "
-                                     "should finish: off under 10, median up to 15, halving beyond."),
+                                     "should finish: off under 4, successive halving from there."),
     jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
     seed: int = SeedOpt,
     store: Optional[str] = StoreOpt,
