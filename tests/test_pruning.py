@@ -201,13 +201,25 @@ def rung_study(**kwargs):
 
 def test_a_rung_compares_a_partly_fitted_model_only_with_values_at_the_same_step():
     study = rung_study(min_peers=3)
-    ask_and_report(study, {1: 0.60, 3: 0.80})   # boosting, a third of a fold then a fold
-    ask_and_report(study, {1: 0.70, 3: 0.82})
+    forest = "random_forest"
+    ask_and_report(study, {1: 0.60, 3: 0.80}, family=forest)   # a third of the trees, then the fold
+    ask_and_report(study, {1: 0.70, 3: 0.82}, family=forest)
     ask_and_report(study, {3: 0.95}, family="linear")  # first report after a whole fold
     ask_and_report(study, {3: 0.96}, family="linear")
     # 0.72 is the best of the three values at step 1, though worse than every value at step 3.
-    assert not ask_and_report(study, {1: 0.72}, finish=False)
-    assert ask_and_report(study, {1: 0.65})
+    assert not ask_and_report(study, {1: 0.72}, finish=False, family=forest)
+    assert ask_and_report(study, {1: 0.65}, family=forest)
+
+
+@pytest.mark.parametrize("pruner", [RungPruner(min_peers=2), MedianPruner(startup=1, min_peers=1)])
+def test_boosting_is_judged_from_a_full_fold_on_not_at_a_third_of_its_rounds(pruner):
+    # A third of the rounds shows how fast a configuration learns, not how well it ends: the
+    # learning rate sets the pace, and slow learners that end best would be pruned there.
+    study = optuna.create_study(direction="maximize", pruner=pruner)
+    for value in (0.80, 0.82, 0.84):
+        ask_and_report(study, {1: value, 2: value, 3: value})
+    assert not ask_and_report(study, {1: 0.50, 2: 0.55, 3: 0.90})  # slow start, best fold
+    assert ask_and_report(study, {1: 0.50, 2: 0.55, 3: 0.60})  # still behind after the fold
 
 
 def test_below_one_fold_a_partly_fitted_model_meets_only_its_own_family():
@@ -224,10 +236,11 @@ def test_below_one_fold_a_partly_fitted_model_meets_only_its_own_family():
 
 def test_the_median_rule_compares_with_finished_trials_at_the_same_step():
     study = optuna.create_study(direction="minimize", pruner=MedianPruner(startup=3, min_peers=3))
+    forest = "random_forest"
     for value in (0.3, 0.4, 0.5):
-        ask_and_report(study, {1: value, 3: value, 6: value})
-    assert not ask_and_report(study, {1: 0.35, 3: 0.35, 6: 0.35})
-    assert ask_and_report(study, {1: 0.9})
+        ask_and_report(study, {1: value, 3: value, 6: value}, family=forest)
+    assert not ask_and_report(study, {1: 0.35, 3: 0.35, 6: 0.35}, family=forest)
+    assert ask_and_report(study, {1: 0.9}, family=forest)
     assert not ask_and_report(study, {1: 0.9}, family="linear")  # no finished linear model at step 1
     assert ask_and_report(study, {3: 0.9}, family="linear")
 

@@ -24,8 +24,8 @@ Families whose fit cannot be cut into parts (linear models, k-NN, SVM) first rep
 Because step numbers count work, a pruner's rungs placed at steps 1, 3, 9 mean "a third of a
 fold, one fold, three folds" for every family.  How far a third of the training takes a model
 along its learning curve differs between families (a third of a forest's trees is nearly the
-whole forest; a third of the boosting rounds is not), so the pruners in ``_pruning.py`` compare
-steps below ``STEPS_PER_FOLD`` only within one family; from step 3 on, every value is a fully
+whole forest; a third of the boosting rounds is not), so the pruners in ``_pruning.py`` judge
+steps below ``STEPS_PER_FOLD`` only for forests, within their own family; from step 3 on, every value is a fully
 fitted model's held-out score and all families are compared.  The last fold is not reported: the trial is
 then complete, and pruning it would only throw its result away.  Losses on other scales (the
 MLP's inner validation loss, training loss) are never reported.
