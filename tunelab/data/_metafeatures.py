@@ -233,7 +233,7 @@ class CostProbe:
     probe_rows
         Rows of the probe sample.
     probe_seconds
-        Wall-clock seconds of one fit plus one prediction pass of ``model`` on the probe
+        CPU seconds (this thread's) of one fit plus one prediction pass of ``model`` on the probe
         sample, on one thread (the fastest of up to three runs when a run is shorter than
         50 ms; ensembles and the MLP are timed at a fifth of the work and multiplied by 5).
     estimated_seconds
@@ -323,6 +323,7 @@ def compute_metafeatures(
     time_cap_s: float = 2.0,
     probe_rows: int = 500,
     clock: Callable[[], float] = time.perf_counter,
+    probe_clock: Callable[[], float] = time.thread_time,
 ) -> MetaFeatures:
     """Describe a dataset with meta-features, in bounded time.
 
@@ -353,8 +354,13 @@ def compute_metafeatures(
     probe_rows
         Rows of the sample each model family is timed on.
     clock
-        Monotonic clock in seconds; a seam for tests.  It times the landmarkers, the
-        probes and the whole computation.
+        Monotonic clock in seconds; a seam for tests.  It times the landmarkers (their caps
+        are wall-clock limits) and the whole computation.
+    probe_clock
+        The clock of the cost probes: this thread's CPU seconds, so that the space built
+        from them does not change with what else the machine runs (wall-clock probes on a
+        busy machine kept SVM in one profile of a table and not in the next).  The probes
+        fit on one thread, as trials do.
 
     Returns
     -------
@@ -406,7 +412,7 @@ def compute_metafeatures(
             n_rows,
             classification,
             seed=seed,
-            clock=clock,
+            clock=probe_clock,
         )
     return MetaFeatures(
         task=task,
