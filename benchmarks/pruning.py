@@ -188,7 +188,7 @@ def main(argv: list[str] | None = None) -> int:
                       f"({record['counts'].get('pruned', 0)} pruned) in {record['ledger_seconds']:.0f} s, "
                       f"test {record['metric']} {record['score']:.4f}", flush=True)
     args.results_dir.mkdir(parents=True, exist_ok=True)
-    out = args.results_dir / f"pruning-{args.budget}-{started.strftime('%Y%m%dT%H%M%SZ')}.json"
+    out = args.results_dir / f"pruning-{args.budget}-seed{args.seed}-{started.strftime('%Y%m%dT%H%M%SZ')}.json"
     out.write_text(json.dumps({"budget": args.budget, "seed": args.seed, "on": args.on,
                                "started": started.isoformat(), "records": records}, indent=1, default=str))
     print()

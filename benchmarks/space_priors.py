@@ -225,7 +225,7 @@ def main(argv: list[str] | None = None) -> int:
     out_dir = Path(args.results_dir)
     out_dir.mkdir(parents=True, exist_ok=True)
     stamp = started.strftime("%Y%m%dT%H%M%SZ")
-    out = out_dir / f"space_priors-{args.budget}-{stamp}.json"
+    out = out_dir / f"space_priors-{args.budget}-seed{args.seed}-{stamp}.json"
     out.write_text(json.dumps({"budget": args.budget, "budget_seconds": budget, "seed": args.seed,
                                "started": started.isoformat(), "rows": rows, "summary": summary}, indent=2,
                               default=str), encoding="utf-8")
