@@ -100,3 +100,17 @@ def test_a_queued_config_is_claimed_and_run_by_one_process(store_path):
     trials = _fresh_read(store_path)
     assert len(trials) == 1 and trials[0].params == {"x": 0.25} and trials[0].value == 0.5
     st.close()
+
+
+def test_a_stop_that_lands_before_the_loop_holds_the_trial_still_leaves_nothing_running(store_path):
+    # Ctrl-C inside study.ask(): the trial row exists, the search loop has no handle on it.
+    from tunelab.engine._search import _mark_orphans_interrupted
+
+    st, study = _study(store_path)
+    study.ask()
+    assert st.optuna_storage().running_here() == [0]
+    assert _mark_orphans_interrupted(study) == 1
+    [seen] = _fresh_read(store_path)
+    assert seen.state == optuna.trial.TrialState.FAIL and seen.user_attrs["tl_state"] == "interrupted"
+    assert st.optuna_storage().running_here() == []
+    st.close()

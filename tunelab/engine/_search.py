@@ -181,6 +181,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
         clear_stop()
         if trial is not None and _mark_interrupted(study, trial):
             counts[INTERRUPTED] += 1
+        counts[INTERRUPTED] += _mark_orphans_interrupted(study)
         name = exc.signal_name if isinstance(exc, StopRequested) else "SIGINT"
         summary.signal_name = name
         summary.exit_code = exc.exit_code if isinstance(exc, StopRequested) else 130
@@ -189,6 +190,7 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
     except BaseException:
         if trial is not None:
             _mark_interrupted(study, trial)
+        _mark_orphans_interrupted(study)
         state = "crashed"
         raise
     finally:
@@ -249,6 +251,28 @@ def _record(study: Any, trial: Any, outcome: Outcome, seconds: float, objective:
         return "failed"
     _mark_interrupted(study, trial)
     return INTERRUPTED
+
+
+def _mark_orphans_interrupted(study: Any) -> int:
+    """Record as interrupted the trials this process started but holds no handle on.
+
+    A stop can land inside ``study.ask()`` after the trial row is written and before the loop
+    holds the trial (seen under load: Ctrl-C left one trial RUNNING).  The storage knows which
+    trials this process runs, so none is left for the next launch's recovery to find.
+    """
+    running_here = getattr(study._storage, "running_here", None)
+    if running_here is None:
+        return 0
+    marked = 0
+    for number in running_here():
+        try:
+            trial_id = study._storage.get_trial_id_from_study_id_trial_number(study._study_id, number)
+            study._storage.set_trial_user_attr(trial_id, STATE_ATTR, INTERRUPTED)
+            study.tell(number, state=TrialState.FAIL)
+            marked += 1
+        except Exception:  # noqa: BLE001 - finished meanwhile, or the store is gone: recovery handles it
+            continue
+    return marked
 
 
 def _mark_interrupted(study: Any, trial: Any) -> bool:

@@ -29,7 +29,7 @@ from optuna.storages._cached_storage import _CachedStorage
 from optuna.storages._rdb import models
 from optuna.storages._rdb.storage import _create_scoped_session
 from optuna.trial import FrozenTrial, TrialState
-from sqlalchemy import insert, update
+from sqlalchemy import insert, select, update
 
 
 class LocalTrialStorage(_CachedStorage):
@@ -70,6 +70,11 @@ class LocalTrialStorage(_CachedStorage):
             return False
         self._write(trial_id, state=state, values=values)
         return True
+
+    def running_here(self) -> list[int]:
+        """Numbers of the trials this process created or claimed and has not finished."""
+        with self._lock:
+            return sorted(t.number for t in self._local.values())
 
     def flush(self) -> None:
         """Write what this process recorded on its running trials, one transaction per trial."""
@@ -204,6 +209,12 @@ class _Batch:
 
 def _write_batch(session: Any, trial_id: int, batch: _Batch, stored: set[tuple[str, Any]]) -> None:
     """Insert or update each row; ``stored`` says which exist, and gains the ones inserted here."""
+    if batch.params:
+        # A parameter row is written once and never changes; read which exist rather than trust
+        # ``stored`` alone (under load a worker once died on a duplicate trial_params row).
+        names = models.TrialParamModel.__table__.c
+        found = session.execute(select(names.param_name).where(names.trial_id == trial_id)).scalars()
+        stored.update(("param", name) for name in found)
     for name, (internal, distribution) in batch.params.items():
         if ("param", name) not in stored:
             session.add(models.TrialParamModel(trial_id=trial_id, param_name=name, param_value=internal,
