@@ -33,3 +33,16 @@ def test_a_stop_is_raised_once_and_then_forgotten():
     outcome = runner.run({}, lambda step, value: False, Limits(None, None), FakeClock())
     assert outcome.kind == "complete"
     clear_stop()
+
+
+def test_a_stop_during_a_held_block_waits_for_its_end():
+    # While a trial's start or end is written, a stop is recorded and raised when the block ends.
+    from tunelab.engine._stop import hold_stops, holding
+
+    done = []
+    with pytest.raises(KeyboardInterrupt):
+        with hold_stops():
+            assert holding()
+            request_stop(KeyboardInterrupt())
+            done.append("the write finished")
+    assert done == ["the write finished"] and not holding()

@@ -25,7 +25,7 @@ from tunelab.engine._recovery import (
     recover,
 )
 from tunelab.engine._runner import Limits, Outcome
-from tunelab.engine._stop import StopRequested, clear_stop, raise_pending
+from tunelab.engine._stop import StopRequested, clear_stop, hold_stops, raise_pending
 from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord
 
@@ -157,16 +157,18 @@ def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runn
             if reason:
                 summary.stop_reason = reason
                 break
-            trial = study.ask()
-            _stamp(study, trial, owner)
-            config = space.sample(trial)
-            _flush(study)  # the config is in the store before the fit starts: a crash re-queues it
+            with hold_stops():  # a stop waits until the trial is claimed, stamped and its config stored
+                trial = study.ask()
+                _stamp(study, trial, owner)
+                config = space.sample(trial)
+                _flush(study)  # the config is in the store before the fit starts: a crash re-queues it
             t0 = clock.now()
             cpu_left = None if left_cpu is None else max(0.0, left_cpu - heartbeat.cpu_seconds())
             outcome = runner.run(config, _pruning_hook(trial), Limits(deadline, cpu_left), clock)
-            kind = _record(study, trial, outcome, clock.now() - t0, getattr(runner, "objective", None))
-            trial = None
-            counts[kind] += 1
+            with hold_stops():  # the outcome is recorded whole, then a stop acts
+                kind = _record(study, trial, outcome, clock.now() - t0, getattr(runner, "objective", None))
+                trial = None
+                counts[kind] += 1
             if kind == "complete":
                 durations.setdefault(str(config.get("family", "")), []).append(clock.now() - t0)
             heartbeat.trials_done += 1

@@ -8,7 +8,11 @@ The search and the trial runner call ``raise_pending()`` at their safe points.
 
 from __future__ import annotations
 
+import contextlib
+from typing import Iterator
+
 _pending: list[BaseException] = []
+_held: list[bool] = []
 
 
 class StopRequested(BaseException):
@@ -34,3 +38,24 @@ def raise_pending() -> None:
 def clear_stop() -> None:
     """Forget a stop that has been acted on."""
     _pending.clear()
+
+
+def holding() -> bool:
+    """Whether a stop must wait: the main thread is writing a trial's start or end to the store."""
+    return bool(_held)
+
+
+@contextlib.contextmanager
+def hold_stops() -> Iterator[None]:
+    """Within the block a stop is only recorded; it is raised when the block ends.
+
+    Why: a Ctrl-C inside ``study.ask()`` landed after a queued trial was claimed in the store and
+    before this process held it, and that trial stayed RUNNING after the launch ended.
+    """
+    _held.append(True)
+    try:
+        yield
+    finally:
+        _held.pop()
+    if not _held:
+        raise_pending()

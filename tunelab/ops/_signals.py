@@ -12,6 +12,7 @@ import threading
 from typing import Any, Iterator
 
 from tunelab.engine import StopRequested, clear_stop, request_stop
+from tunelab.engine._stop import holding
 
 _EXIT_CODES = {signal.SIGINT: 130, signal.SIGTERM: 143, signal.SIGHUP: 129}
 
@@ -32,7 +33,8 @@ def stop_on_signals() -> Iterator[None]:
         stop: BaseException = KeyboardInterrupt() if signum == signal.SIGINT else \
             StopRequested(signal.Signals(signum).name, _EXIT_CODES.get(signum, 128 + signum))
         request_stop(stop)  # kept in case this raise lands where exceptions are swallowed
-        raise stop
+        if not holding():  # a trial is being written to the store: the stop waits for the block's end
+            raise stop
 
     for sig in _EXIT_CODES:
         previous[sig] = signal.signal(sig, handler)
