@@ -29,7 +29,7 @@ from optuna.storages._cached_storage import _CachedStorage
 from optuna.storages._rdb import models
 from optuna.storages._rdb.storage import _create_scoped_session
 from optuna.trial import FrozenTrial, TrialState
-from sqlalchemy import insert, select, update
+from sqlalchemy import insert, update
 
 
 class LocalTrialStorage(_CachedStorage):
@@ -62,14 +62,30 @@ class LocalTrialStorage(_CachedStorage):
                                values: Sequence[float] | None = None) -> bool:
         if trial_id not in self._local:
             self._fresh = False
-            claimed = super().set_trial_state_values(trial_id, state, values)
-            if claimed and state == TrialState.RUNNING:  # a queued trial this process now runs
+            if state != TrialState.RUNNING:
+                return super().set_trial_state_values(trial_id, state, values)
+            claimed = self._claim(trial_id)
+            if claimed:  # a queued trial this process now runs
                 self._adopt(self._backend.get_trial(trial_id))
             return claimed
         if state == TrialState.RUNNING:
             return False
         self._write(trial_id, state=state, values=values)
         return True
+
+    def _claim(self, trial_id: int) -> bool:
+        """Take a queued trial in one conditional update, so exactly one process wins it.
+
+        Why: optuna's claim reads the state and then writes it; SQLite's Python driver begins
+        the transaction at the write, so two workers could both read WAITING and both run the
+        config (seen as duplicate parameter and attribute rows, and a worker dying on them).
+        """
+        table = models.TrialModel.__table__
+        with _create_scoped_session(self._backend.scoped_session) as session:
+            taken = session.execute(update(table)
+                                    .where(table.c.trial_id == trial_id, table.c.state == TrialState.WAITING)
+                                    .values(state=TrialState.RUNNING, datetime_start=datetime.now()))
+            return taken.rowcount == 1
 
     def running_here(self) -> list[int]:
         """Numbers of the trials this process created or claimed and has not finished."""
@@ -209,12 +225,6 @@ class _Batch:
 
 def _write_batch(session: Any, trial_id: int, batch: _Batch, stored: set[tuple[str, Any]]) -> None:
     """Insert or update each row; ``stored`` says which exist, and gains the ones inserted here."""
-    if batch.params:
-        # A parameter row is written once and never changes; read which exist rather than trust
-        # ``stored`` alone (under load a worker once died on a duplicate trial_params row).
-        names = models.TrialParamModel.__table__.c
-        found = session.execute(select(names.param_name).where(names.trial_id == trial_id)).scalars()
-        stored.update(("param", name) for name in found)
     for name, (internal, distribution) in batch.params.items():
         if ("param", name) not in stored:
             session.add(models.TrialParamModel(trial_id=trial_id, param_name=name, param_value=internal,
