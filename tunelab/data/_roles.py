@@ -21,6 +21,7 @@ ROLES: tuple[Role, ...] = ("numeric", "categorical", "text", "datetime", "id")
 _ID_NAME = re.compile(r"(^|[_\W])(id|uuid|guid|key)$|^id[_\W]", re.IGNORECASE)
 _TEXT_MIN_TOKENS = 3.0  # mean words per value; common practice, no source
 _ID_UNIQUE_SHARE = 0.95
+_MONTH_NAME = re.compile(r"\b(jan|feb|mar|apr|may|jun|jul|aug|sep|oct|nov|dec)[a-z]*\b", re.IGNORECASE)
 
 
 @dataclass(frozen=True)
@@ -71,6 +72,11 @@ def _looks_datetime(values: pd.Series) -> bool:
     if sample.str.fullmatch(r"[-+]?\d+(\.\d+)?").mean() > 0.5:
         return False  # plain numbers stored as text are not dates
     if not sample.str.contains(r"\d").all():
+        return False
+    # A date has two numbers (day and month, or a year and more) or a month's name; the parser
+    # alone also reads ordinals ("1st", "3rd": a passenger class) as days of the current month.
+    dated = (sample.str.count(r"\d+") >= 2) | sample.str.contains(_MONTH_NAME)
+    if dated.mean() < 0.9:
         return False
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
