@@ -14,10 +14,12 @@ import time
 import uuid
 from pathlib import Path
 
+import optuna
 import pytest
 from sqlalchemy import create_engine, text
 
 from conftest import small_frame
+from tunelab.store import Store
 
 PG_ADMIN_URL = os.environ.get("TUNELAB_TEST_POSTGRES", "postgresql://127.0.0.1:5432/test")
 TUNELAB = [sys.executable, "-m", "tunelab"]
@@ -175,3 +177,38 @@ def test_the_schema_is_created_the_same_on_postgres_and_sqlite(pg_url, tmp_path)
     with Store.open(pg_url, create=True) as pg, Store.open(str(tmp_path / "s.db"), create=True) as lite:
         pg.optuna_storage(), lite.optuna_storage()
         assert set(inspect(pg.engine).get_table_names()) == set(inspect(lite.engine).get_table_names())
+
+
+def _claim_all(store: str, name: str, start, found) -> None:
+    """One worker process: claim every queued trial it can, as ``study.ask()`` does."""
+    st = Store.open(store)
+    storage = st.optuna_storage()
+    study_id = storage.get_study_id_from_name(name)
+    waiting = [t._trial_id for t in storage.get_all_trials(study_id, states=(optuna.trial.TrialState.WAITING,))]
+    start.wait()
+    found.put([t for t in waiting if storage.set_trial_state_values(t, optuna.trial.TrialState.RUNNING)])
+    st.close()
+
+
+def test_a_queued_config_is_claimed_by_exactly_one_of_several_racing_processes(store_url):
+    # optuna's claim reads the state, then writes it; on SQLite the driver starts the transaction
+    # at the write, so two processes could both read WAITING and both run the config.
+    import multiprocessing
+
+    st = Store.open(store_url, create=True)
+    study = optuna.create_study(storage=st.optuna_storage(), study_name="buffered", direction="maximize")
+    for i in range(40):
+        study.enqueue_trial({"x": i / 40})
+    st.close()
+    ctx = multiprocessing.get_context("fork")
+    start, found = ctx.Event(), ctx.Queue()
+    workers = [ctx.Process(target=_claim_all, args=(store_url, "buffered", start, found)) for _ in range(4)]
+    for w in workers:
+        w.start()
+    start.set()
+    claims = [found.get(timeout=60) for _ in workers]
+    for w in workers:
+        w.join(timeout=60)
+    every = [t for mine in claims for t in mine]
+    assert sorted(every) == sorted(set(every)), f"claimed twice: {claims}"
+    assert len(every) == 40

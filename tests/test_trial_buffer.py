@@ -115,36 +115,3 @@ def test_a_stop_that_lands_before_the_loop_holds_the_trial_still_leaves_nothing_
     assert st.optuna_storage().running_here() == []
     st.close()
 
-
-def _claim_all(store_path: str, name: str, start, found) -> None:
-    """One worker process: claim every queued trial it can, as ``study.ask()`` does."""
-    st = Store.open(store_path)
-    storage = st.optuna_storage()
-    study_id = storage.get_study_id_from_name(name)
-    waiting = [t._trial_id for t in storage.get_all_trials(study_id, states=(optuna.trial.TrialState.WAITING,))]
-    start.wait()
-    found.put([t for t in waiting if storage.set_trial_state_values(t, optuna.trial.TrialState.RUNNING)])
-    st.close()
-
-
-def test_a_queued_config_is_claimed_by_exactly_one_of_several_racing_processes(store_path):
-    # optuna's claim reads the state, then writes it; on SQLite the driver starts the transaction
-    # at the write, so two processes could both read WAITING and both run the config.
-    import multiprocessing
-
-    st, study = _study(store_path)
-    for i in range(40):
-        study.enqueue_trial({"x": i / 40})
-    st.close()
-    ctx = multiprocessing.get_context("fork")
-    start, found = ctx.Event(), ctx.Queue()
-    workers = [ctx.Process(target=_claim_all, args=(str(store_path), "buffered", start, found)) for _ in range(4)]
-    for w in workers:
-        w.start()
-    start.set()
-    claims = [found.get(timeout=60) for _ in workers]
-    for w in workers:
-        w.join(timeout=60)
-    every = [t for mine in claims for t in mine]
-    assert sorted(every) == sorted(set(every)), f"claimed twice: {claims}"
-    assert len(every) == 40
