@@ -26,3 +26,13 @@ def test_ordinals_are_categories_not_days_of_the_month() -> None:
 
 def test_numbers_stored_as_text_are_not_dates() -> None:
     assert infer_role("code", pd.Series(["12", "7", "2024"] * 20)).role != "datetime"
+
+
+def test_reading_roles_prints_no_warnings() -> None:
+    # a user sees these on the terminal of every run, profile and export
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        for values in (["2024-01-05", "Mar 5"], ["1st", "2nd"], ["red", "blue"]):
+            infer_role("column", pd.Series(values * 30))

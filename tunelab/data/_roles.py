@@ -21,7 +21,7 @@ ROLES: tuple[Role, ...] = ("numeric", "categorical", "text", "datetime", "id")
 _ID_NAME = re.compile(r"(^|[_\W])(id|uuid|guid|key)$|^id[_\W]", re.IGNORECASE)
 _TEXT_MIN_TOKENS = 3.0  # mean words per value; common practice, no source
 _ID_UNIQUE_SHARE = 0.95
-_MONTH_NAME = re.compile(r"\b(jan|feb|mar|apr|may|jun|jul|aug|sep|oct|nov|dec)[a-z]*\b", re.IGNORECASE)
+_MONTH_NAME = re.compile(r"\b(?:jan|feb|mar|apr|may|jun|jul|aug|sep|oct|nov|dec)[a-z]*\b", re.IGNORECASE)
 
 
 @dataclass(frozen=True)
