@@ -4,6 +4,7 @@ Run from the repository root (about 12-18 minutes with the defaults)::
 
     python benchmarks/pruning.py                                  # six datasets, 60 s each
     python benchmarks/pruning.py --budget 30s --datasets credit,wage --on halving
+    python benchmarks/pruning.py --combine results/pruning-60s-seed0-*.json results/pruning-60s-seed1-*.json
 
 For each dataset, ``tunelab profile --write-space`` builds the search space once, for the
 budget; then ``tunelab run --space`` is launched twice on the same training file with that
@@ -118,6 +119,33 @@ def side_by_side(records: list[dict[str, Any]], on: str) -> pd.DataFrame:
     return pd.DataFrame(rows).set_index("dataset")
 
 
+def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """One record per dataset and setting: the mean over seeds of rate, test and best cv score.
+
+    One 60 s search is one noisy sample (the machine's load moves the counts; a test split of a
+    few hundred rows moves the score), so a dataset is judged on each setting's mean over seeds,
+    as ``space_priors.py`` does.  Seeds missing one setting are left out of both.
+    """
+    paired = {}
+    for r in records:
+        paired.setdefault((r["dataset"], r.get("seed", 0)), {})[r["pruning"]] = r
+    groups: dict[tuple[str, str], list[dict[str, Any]]] = {}
+    for pair in paired.values():
+        if len(pair) == 2:
+            for r in pair.values():
+                groups.setdefault((r["dataset"], r["pruning"]), []).append(r)
+    pooled = []
+    for (name, pruning), group in groups.items():
+        counts: dict[str, int] = {}
+        for r in group:
+            for key, value in r["counts"].items():
+                counts[key] = counts.get(key, 0) + value
+        pooled.append({**group[0], "counts": counts, "seeds": sorted(r.get("seed", 0) for r in group),
+                       **{key: sum(r[key] for r in group) / len(group)
+                          for key in ("per_minute", "score", "cv_best", "evaluated")}})
+    return pooled
+
+
 def _equal_or_better(metric: str, on: float, off: float) -> bool:
     # Scores within a millionth of each other (relative) are the same model up to rounding:
     # e.g. two logistic regressions with C = 500 and C = 700 on separable features.
@@ -157,6 +185,9 @@ def _parse_args(argv: list[str] | None) -> argparse.Namespace:
     parser.add_argument("--keep", type=Path, default=None, help="keep the stores and models in this folder")
     parser.add_argument("--table", type=Path, default=None,
                         help="only print the table of an earlier run's raw results (JSON)")
+    parser.add_argument("--combine", type=Path, nargs="+", default=None, metavar="JSON",
+                        help="pool earlier runs' raw results (one per seed): each dataset judged on the mean "
+                             "over the seeds")
     return parser.parse_args(argv)
 
 
@@ -166,6 +197,15 @@ def main(argv: list[str] | None = None) -> int:
     if args.table is not None:
         saved = json.loads(args.table.read_text())
         print(render(side_by_side(saved["records"], saved["on"])))
+        return 0
+    if args.combine:
+        runs = [json.loads(path.read_text()) for path in args.combine]
+        records = [{**r, "seed": run["seed"]} for run in runs for r in run["records"]]
+        for seed in sorted({r["seed"] for r in records}):
+            print(f"seed {seed}")
+            print(render(side_by_side([r for r in records if r["seed"] == seed], runs[0]["on"])) + "\n")
+        print(f"mean over seeds {', '.join(str(s) for s in sorted({r['seed'] for r in records}))}")
+        print(render(side_by_side(pool_seeds(records), runs[0]["on"])))
         return 0
     names = [n.strip() for n in args.datasets.split(",") if n.strip()]
     for name in names:
@@ -183,7 +223,7 @@ def main(argv: list[str] | None = None) -> int:
                 except CommandFailed as exc:
                     print(f"{name} / pruning {pruning}: {exc}", file=sys.stderr)
                     continue
-                records.append(record)
+                records.append({**record, "seed": args.seed})
                 print(f"{name:10s} pruning {pruning:9s} {record['evaluated']:3d} configs "
                       f"({record['counts'].get('pruned', 0)} pruned) in {record['ledger_seconds']:.0f} s, "
                       f"test {record['metric']} {record['score']:.4f}", flush=True)
