@@ -16,7 +16,7 @@ VERBS = sorted(c.name or c.callback.__name__ for c in app.registered_commands)
 
 
 def test_the_design_verbs_exist():
-    assert {"run", "resume", "status", "export", "predict", "importance", "freeze", "worker"} <= set(VERBS)
+    assert {"run", "resume", "status", "export", "predict", "importance", "freeze", "worker", "report"} <= set(VERBS)
 
 
 @pytest.mark.parametrize("verb", VERBS)

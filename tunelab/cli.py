@@ -388,6 +388,39 @@ def freeze(
     r.out.print(f"continue with: tunelab resume {result.study} --extend 10m")
 
 
+@app.command()
+def report(
+    study: str = typer.Argument(..., help="Study to summarise."),
+    out: Optional[Path] = typer.Option(None, "--out", "-o", help="HTML file to write. [default: ./STUDY.report.html]"),
+    store: Optional[str] = StoreOpt,
+    json_out: bool = JsonOpt,
+    quiet: bool = typer.Option(False, "-q", "--quiet", help="Print only the written file's path."),
+) -> None:
+    """Write one self-contained HTML page about a study, to open in a browser or attach to a message.
+
+    It holds the study's facts and budget, the best trial and its configuration, a chart of every
+    trial's score, each model family's results, which parameters mattered, and why the search
+    space looks as it does. No scripts and no links: it reads the same offline. An existing
+    file is replaced only when it is an earlier report.
+
+    \b
+    Example:
+      tunelab report sales                        # writes ./sales.report.html
+      tunelab report sales --out /tmp/sales.html --store studies.db
+    """
+    from tunelab import _render as r
+    from tunelab.ops import write_report
+
+    result = write_report(study, store=store, out=out)
+    if json_out:
+        r.emit_json(result.to_dict())
+    elif quiet:
+        r.out.print(result.path)
+    else:
+        r.out.print(f"wrote {result.path}: report on study {result.study} ({result.trials} trials); "
+                    "open it in a browser")
+
+
 def main(argv: list[str] | None = None) -> None:
     """Entry point: run the app; map TunelabError to one line on stderr and exit code 2."""
     import time

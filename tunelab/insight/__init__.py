@@ -1,4 +1,4 @@
-"""Insight into a search: which parameters matter, and which can be frozen at what value."""
+"""Insight into a search: which parameters matter, which can be frozen at what value, and the HTML report."""
 
 from tunelab.insight._importance import (
     FAMILY_PARAM,
@@ -9,13 +9,37 @@ from tunelab.insight._importance import (
     TrialRecord,
     importance_table,
 )
+from tunelab.insight._report import (
+    GENERATOR,
+    BestTrial,
+    ChartPoint,
+    FamilyLine,
+    Reason,
+    ReportData,
+    best_so_far,
+    nice_ticks,
+    render_report,
+    space_reasons,
+    trial_chart,
+)
 
 __all__ = [
+    "BestTrial",
+    "ChartPoint",
     "FAMILY_PARAM",
+    "FamilyLine",
+    "GENERATOR",
     "GroupNote",
     "ImportanceReport",
     "ImportanceRow",
+    "Reason",
+    "ReportData",
     "Thresholds",
     "TrialRecord",
+    "best_so_far",
     "importance_table",
+    "nice_ticks",
+    "render_report",
+    "space_reasons",
+    "trial_chart",
 ]

@@ -98,17 +98,26 @@ def _records(st: Store, record: StudyRecord) -> tuple[list[TrialRecord], dict[st
     import optuna
 
     study = optuna.load_study(study_name=record.name, storage=st.optuna_storage())
+    distributions = _distributions(st, record)
+    return _trial_records(study.get_trials(deepcopy=False), distributions), distributions
+
+
+def _distributions(st: Store, record: StudyRecord) -> dict[str, Any]:
     distributions: dict[str, Any] = {}
     for phase in st.phases(record.id):  # earlier (wider) phases win
         for key, dist in SpaceSpec.from_json(phase.space_json).distributions().items():
             distributions.setdefault(key, dist)
+    return distributions
+
+
+def _trial_records(study_trials: Any, distributions: Mapping[str, Any]) -> list[TrialRecord]:
     trials = []
-    for t in study.get_trials(deepcopy=False):
+    for t in study_trials:
         state = trial_state(t)
         if state in ("complete", "pruned") and t.value is not None:
             params = {k: v for k, v in t.params.items() if k in distributions}
             trials.append(TrialRecord(number=t.number, params=params, value=float(t.value), state=state))
-    return trials, distributions
+    return trials
 
 
 def _families(distributions: Mapping[str, Any]) -> list[str]:
