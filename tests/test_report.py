@@ -12,7 +12,7 @@ import pytest
 
 from conftest import digest
 from tunelab.engine import Budget, FakeClock, SearchSettings, TrialResult, trial_state
-from tunelab.insight import ChartPoint, best_so_far, nice_ticks, trial_chart
+from tunelab.insight import ChartPoint, best_so_far, nice_ticks, trial_chart, value_window
 from tunelab.ops import create_objective_study, default_report_path, freeze_parameters, run_objective_study, write_report
 from tunelab.space import FamilySpec, ParamSpec, SpaceSpec
 
@@ -297,6 +297,27 @@ def test_better_scores_are_drawn_higher_whatever_the_direction(direction, best):
     assert value[max(value)] == (2.0 if direction == "maximize" else 5.0)
     ring = [c for c in svg if c.tag == "circle" and c.get("fill") == "none"]
     assert len(ring) == 1 and float(ring[0].get("cy")) == min(value)  # the best trial is ringed
+
+
+@pytest.mark.parametrize("direction", ["maximize", "minimize"])
+def test_one_diverged_trial_sits_on_the_worse_edge_instead_of_squashing_the_rest(direction):
+    sign = 1 if direction == "minimize" else -1
+    scores = [0.40, 0.41, 0.42, 0.43, 0.44, 0.45, 0.46]
+    points = [ChartPoint(n, sign * v, "complete") for n, v in enumerate(scores)]
+    points.append(ChartPoint(len(scores), sign * 20.0, "pruned"))  # a model that diverged
+    lo, hi = value_window([p.value for p in points], direction)
+    # Tukey's far fence on the worse side: q3 + 3 IQR = 0.4525 + 3 * (0.4525 - 0.4175) = 0.5575
+    assert (lo, hi) == pytest.approx(sorted((sign * 0.40, sign * 0.5575)))
+    svg = ET.fromstring(trial_chart(points, direction=direction, metric="m"))
+    dots = [c for c in svg if c.tag == "circle" and c.find("title") is not None
+            and c.find("title").text.startswith("trial ")]
+    complete = [float(c.get("cy")) for c in dots if ", complete:" in c.find("title").text]
+    [diverged] = [float(c.get("cy")) for c in dots if ", pruned:" in c.find("title").text]
+    frame = next(r for r in svg if r.tag == "rect")
+    bottom = float(frame.get("y")) + float(frame.get("height"))
+    # The rest span over a third of the chart's height (with the axis stretched to 20: 0.3 %).
+    assert max(complete) - min(complete) > float(frame.get("height")) / 3
+    assert min(complete) < diverged <= bottom  # better is higher; the diverged trial sits lowest
 
 
 def test_ticks_are_round_numbers_inside_the_range():

@@ -262,6 +262,11 @@ def _chart_caption(d: ReportData) -> str:
     tail = (f" {missing} failed or interrupted trial{'s have' if missing != 1 else ' has'} no score and "
             f"{'are' if missing != 1 else 'is'} not drawn.") if missing else ""
     up = "higher" if d.direction == "maximize" else "lower"
+    scores = [p.value for p in d.points if math.isfinite(p.value)]
+    off = beyond_window(scores, d.direction) if scores else 0
+    if off:
+        tail = (f" {off} trial{'s' if off != 1 else ''} scored far worse than the rest and "
+                f"{'sit' if off != 1 else 'sits'} on the chart's lower edge (hover for the score).{tail}")
     return (f'<p class="legend">{dot}complete{ring}pruned (its score when it was stopped){line}best so far'
             f"</p><p class=\"quiet\">Better scores are drawn higher ({_e(d.metric)}: {up} is better)."
             f"{_e(tail)}</p>")
@@ -375,14 +380,16 @@ def trial_chart(points: Sequence[ChartPoint], *, direction: Direction, metric: s
     first_n, last_n = min(p.number for p in finite), max(p.number for p in finite)
     x_pad = max(0.5, 0.015 * (last_n - first_n))  # keeps the first and last dots off the frame
     x_lo, x_hi = first_n - x_pad, last_n + x_pad
-    y_lo, y_hi = min(p.value for p in finite), max(p.value for p in finite)
+    y_lo, y_hi = value_window([p.value for p in finite], direction)
     pad = (y_hi - y_lo) * 0.06 if y_hi > y_lo else (abs(y_lo) * 0.05 or 0.5)
+    edge = y_lo if direction == "maximize" else y_hi  # the worse edge; scores beyond it sit on it
     y_lo, y_hi = y_lo - pad, y_hi + pad
 
     def px(n: float) -> float:
         return left + (n - x_lo) / (x_hi - x_lo) * pw
 
     def py(v: float) -> float:
+        v = max(v, edge) if direction == "maximize" else min(v, edge)
         share = (y_hi - v) if direction == "maximize" else (v - y_lo)
         return top + share / (y_hi - y_lo) * ph
 
@@ -430,6 +437,35 @@ def trial_chart(points: Sequence[ChartPoint], *, direction: Direction, metric: s
                    f'stroke="{_BEST}" stroke-width="1.8"><title>best: trial {first}</title></circle>')
     svg.append("</svg>")
     return "".join(svg)
+
+
+def value_window(values: Sequence[float], direction: Direction) -> tuple[float, float]:
+    """The score range the chart shows: every better score, worse ones up to Tukey's far fence.
+
+    One diverged model (a log loss of 20 beside scores near 0.4) would otherwise squash every
+    other trial into a line; scores beyond the fence, q3 + 3 IQR on the worse side (Tukey 1977,
+    "Exploratory Data Analysis"), are drawn on the chart's edge instead.
+    """
+    ordered = sorted(values)
+    lo, hi = ordered[0], ordered[-1]
+    q1, q3 = _quantile(ordered, 0.25), _quantile(ordered, 0.75)
+    reach = 3 * (q3 - q1)
+    if direction == "maximize":
+        return max(lo, q1 - reach), hi
+    return lo, min(hi, q3 + reach)
+
+
+def beyond_window(values: Sequence[float], direction: Direction) -> int:
+    """How many scores lie beyond :func:`value_window` (drawn on its edge)."""
+    lo, hi = value_window(values, direction)
+    return sum(v < lo or v > hi for v in values)
+
+
+def _quantile(ordered: Sequence[float], q: float) -> float:
+    at = q * (len(ordered) - 1)
+    low = math.floor(at)
+    high = min(low + 1, len(ordered) - 1)
+    return ordered[low] + (ordered[high] - ordered[low]) * (at - low)
 
 
 def nice_ticks(lo: float, hi: float, count: int = 5, *, integers: bool = False) -> list[float]:
@@ -521,4 +557,5 @@ __all__ = [
     "render_report",
     "space_reasons",
     "trial_chart",
+    "value_window",
 ]
