@@ -35,18 +35,18 @@ from optuna.trial import TrialState  # noqa: E402
 from tunelab.engine._objective import STEPS_PER_FOLD  # noqa: E402
 from tunelab.engine._pruning import KEEP, RUNG_STEPS, RungPruner  # noqa: E402
 
-RULES: dict[str, tuple[tuple[int, ...], float]] = {
-    "rungs 1,3,6 keep 1/3 (default)": (RUNG_STEPS, KEEP),
-    "rungs 1,3,9 keep 1/3": ((1, 3, 9), 1 / 3),
-    "rungs 1,3,6,9 keep 1/3": ((1, 3, 6, 9), 1 / 3),
-    "rungs 1,3,9 keep 1/2": ((1, 3, 9), 1 / 2),
+RULES: dict[str, dict[str, Any]] = {
+    "every fold + family (default)": dict(rungs=RUNG_STEPS, keep=KEEP),
+    "every fold, all families": dict(rungs=RUNG_STEPS, keep=KEEP, within_family=False),
+    "rungs 1,3,6 + family": dict(rungs=(1, 3, 6), keep=KEEP),
+    "rungs 1,3,6, all families": dict(rungs=(1, 3, 6), keep=KEEP, within_family=False),
 }
 
 
-def replay(trials: list[optuna.trial.FrozenTrial], direction: str, rungs: tuple[int, ...], keep: float,
+def replay(trials: list[optuna.trial.FrozenTrial], direction: str, rule: dict[str, Any],
            overhead: float) -> tuple[float, bool]:
-    """The work ratio of one rule on one unpruned study, and whether its best trial would be pruned."""
-    study = optuna.create_study(direction=direction, pruner=RungPruner(rungs=rungs, keep=keep))
+    """The work ratio of one rule (``RungPruner`` arguments) on one unpruned study, and whether its best trial would be pruned."""
+    study = optuna.create_study(direction=direction, pruner=RungPruner(**rule))
     best = study.direction == optuna.study.StudyDirection.MAXIMIZE
     best_number = (max if best else min)(trials, key=lambda t: t.value).number
     n_steps = STEPS_PER_FOLD * _folds(trials)
@@ -108,8 +108,8 @@ def main(argv: list[str] | None = None) -> int:
     print(f"{'study':24s} " + " ".join(f"{rule[:22]:>24s}" for rule in RULES))
     for label, trials, direction in found:
         cells = []
-        for rule, (rungs, keep) in RULES.items():
-            ratio, pruned = replay(trials, direction, rungs, keep, args.overhead)
+        for rule, settings in RULES.items():
+            ratio, pruned = replay(trials, direction, settings, args.overhead)
             totals[rule].append((ratio, pruned))
             cells.append(f"{ratio:5.2f}x{' best pruned' if pruned else '            '}      ")
         print(f"{label:24s} " + " ".join(f"{c:>24s}" for c in cells))

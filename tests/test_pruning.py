@@ -265,10 +265,41 @@ def test_a_default_rung_keeps_the_textbook_third():
 def test_steps_between_rungs_never_prune_and_nan_always_does():
     study = rung_study(min_peers=1)
     for value in (0.9, 0.8, 0.7):
-        ask_and_report(study, {2: value, 9: value})
-    assert not ask_and_report(study, {2: 0.1, 9: 0.1})  # steps 2 and 9 are not rungs (1, 3, 6)
+        ask_and_report(study, {2: value, 4: value})
+    assert not ask_and_report(study, {2: 0.1, 4: 0.1})  # steps 2 and 4 are not rungs
     assert ask_and_report(study, {1: math.nan})
-    assert [RungPruner().rung_of(s) for s in (1, 2, 3, 6, 9, 12)] == [0, None, 1, 2, None, None]
+
+
+def test_the_default_rungs_are_a_third_of_the_first_fold_then_every_fold_but_the_last():
+    assert [RungPruner().rung_of(s) for s in (1, 2, 3, 4, 6, 9, 12, 15)] == [0, None, 1, None, 2, 3, 4, None]
+
+
+def test_from_one_fold_on_a_trial_must_also_be_among_the_best_third_of_its_own_family():
+    # The weak linear models pad the rung all families share; within boosting the usual third
+    # goes on, so the family the search settles on is halved as the textbook rule intends.
+    study = rung_study(min_peers=2)
+    for value in (0.60, 0.61, 0.62, 0.63):
+        ask_and_report(study, {3: value}, family="linear")
+    ask_and_report(study, {3: 0.90})
+    ask_and_report(study, {3: 0.91})
+    # 0.89 is the third best of seven values at step 3, but the worst of three boosting values.
+    assert ask_and_report(study, {3: 0.89})
+    assert not ask_and_report(study, {3: 0.92})
+    # Judged across families only, the same trial would go on.
+    across = rung_study(min_peers=2, within_family=False)
+    for value in (0.60, 0.61, 0.62, 0.63):
+        ask_and_report(across, {3: value}, family="linear")
+    ask_and_report(across, {3: 0.90})
+    ask_and_report(across, {3: 0.91})
+    assert not ask_and_report(across, {3: 0.89})
+
+
+def test_a_trial_of_a_weak_family_is_still_stopped_by_the_rung_all_families_share():
+    study = rung_study(min_peers=2)
+    for value in (0.90, 0.91, 0.92):
+        ask_and_report(study, {3: value})
+    # The best linear model so far, but far outside the best third of all values at step 3.
+    assert ask_and_report(study, {3: 0.60}, family="linear")
 
 
 def test_hyperband_brackets_start_pruning_at_later_rungs():

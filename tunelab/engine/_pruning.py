@@ -14,7 +14,13 @@ step 3 one fold, step 6 two folds.  Two things follow for a fair comparison:
   best (``benchmarks/pruning.py``, diamonds: the three best boosting configurations of an
   unpruned search ranked 7th-10th of 18 at a third of their rounds, and 1st-4th of 26 after
   the fold).  Boosting and the MLP still report there; the values are kept with the trial.
-  From step 3 on, every value is a fully fitted fold's held-out score, and all families meet.
+  From step 3 on, every value is a fully fitted fold's held-out score, and all families meet;
+* from one fold on, a trial must also be among the best share of *its own family* at that step.
+  Weak families pad a rung that all families share, so the family a search settles on passed
+  nearly every rung (``benchmarks/pruning.py``, diamonds, two seeds: 73-87 % of boosting trials
+  went on after one fold and about 60 % after two, against the third that halving intends) and
+  its five-fold fits took most of the budget.  Within the family the usual third goes on; a trial of a weak family
+  is still stopped by the rung all families share.
 
 :class:`RungPruner` is asynchronous successive halving on that basis (``halving``, and
 ``hyperband`` as three brackets of it); :class:`MedianPruner` is the median rule.  Both are
@@ -36,12 +42,12 @@ from tunelab.errors import InputError
 
 PRUNING_CHOICES = ("auto", "off", "median", "halving", "hyperband")
 
-# Rungs at a third of the first fold, one fold and two folds.  The geometric ladder (steps 1, 3, 9)
-# puts its last rung at three folds of five, where pruning saves only two.  Replaying the 24
-# unpruned 60 s searches of benchmarks/pruning.py (2 seeds, 2 runs, 6 datasets) through both
-# ladders: rungs at one and two folds saved more work (2.45x against 2.32x on average) and pruned
-# the search's eventual best trial in 6 studies against 9.
-RUNG_STEPS = (1, STEPS_PER_FOLD, 2 * STEPS_PER_FOLD)
+# Rungs at a third of the first fold and after every fold but the last (folds are at most five,
+# see tunelab.engine._folds).  With each trial also judged within its family, rungs after every
+# fold measured 2.08-4.84x the configurations per minute of no pruning on six datasets (mean of
+# two seeds, benchmarks/README.md) against 1.58-5.31x for rungs at one third, one and two folds
+# judged across families only; the geometric ladder (1, 3, 9) saved less in replays.
+RUNG_STEPS = (1, *(STEPS_PER_FOLD * fold for fold in range(1, 5)))
 RUNG_FACTOR = 3  # successive halving's reduction factor: the best third of a rung goes on
 KEEP = 1 / RUNG_FACTOR  # the best third goes on: successive halving with factor 3 (Jamieson & Talwalkar 2016;
 # asynchronous form: Li et al. 2020, "A System for Massively Parallel Hyperparameter Tuning"; from memory)
@@ -81,12 +87,13 @@ def _peer_values(study: optuna.Study, trial: FrozenTrial, step: int, states: Ite
 class RungPruner(BasePruner):
     """Asynchronous successive halving at fixed steps, comparing equal steps only.
 
-    Rungs sit at ``rungs`` (by default a third of the first fold, one fold, two folds: steps
-    1, 3, 6).  A trial that reports at a rung goes on only if its value is among the
+    Rungs sit at ``rungs`` (by default a third of the first fold, then after each fold but the
+    last: steps 1, 3, 6, 9, 12).  A trial that reports at a rung goes on only if its value is among the
     best ``keep`` share — rounded up, so at least the best one — of all values reported at that
     same step so far, its own included: by trials in any state, and in hyperband by trials of
-    its bracket.  A rung with fewer than ``min_peers`` values prunes nothing.  A NaN value is
-    always pruned.
+    its bracket; with ``within_family``, from one fold on it must also be among the best share
+    of the values its own family reported there.  A share with fewer than ``min_peers`` values
+    prunes nothing.  A NaN value is always pruned.
 
     The textbook share is kept, 1/3.  Keeping half instead was measured in
     ``benchmarks/pruning.py`` (60 s, six datasets): 1.1-4.0x the configurations per minute of
@@ -103,10 +110,13 @@ class RungPruner(BasePruner):
     brackets
         With more than one bracket (hyperband), trial ``n`` belongs to bracket ``b = n % brackets``,
         is compared only within it, and is first judged at rung ``b``.
+    within_family
+        From one fold on, also require the best ``keep`` share of the trial's own family (see
+        the module docstring); below one fold the comparison is within the family anyway.
     """
 
     def __init__(self, rungs: tuple[int, ...] = RUNG_STEPS, keep: float = KEEP, min_peers: int = MIN_PEERS,
-                 brackets: int = 1) -> None:
+                 brackets: int = 1, within_family: bool = True) -> None:
         if (not rungs or list(rungs) != sorted(set(rungs)) or rungs[0] < 1 or not 0.0 < keep < 1.0
                 or min_peers < 1 or brackets < 1):
             raise ValueError("increasing rungs from step 1, 0 < keep < 1, min_peers >= 1 and brackets >= 1 "
@@ -115,6 +125,7 @@ class RungPruner(BasePruner):
         self.keep = keep
         self.min_peers = min_peers
         self.brackets = brackets
+        self.within_family = within_family
 
     def rung_of(self, step: int) -> int | None:
         """The rung index of a step, or None between rungs."""
@@ -136,6 +147,18 @@ class RungPruner(BasePruner):
         same_bracket = None if self.brackets == 1 else (lambda t: t.number % self.brackets == bracket)
         states = (TrialState.COMPLETE, TrialState.PRUNED, TrialState.RUNNING, TrialState.FAIL)
         values = [value, *_peer_values(study, trial, step, states, same_bracket)]
+        if self._below_share(study, value, values):
+            return True
+        if self.within_family and step >= STEPS_PER_FOLD:
+            family = trial.params.get("family")
+            kin = [value, *_peer_values(study, trial, step, states,
+                                        lambda t: t.params.get("family") == family
+                                        and (same_bracket is None or same_bracket(t)))]
+            return self._below_share(study, value, kin)
+        return False
+
+    def _below_share(self, study: optuna.Study, value: float, values: list[float]) -> bool:
+        """Whether ``value`` falls outside the best ``keep`` share of ``values`` (its own included)."""
         if len(values) < self.min_peers:
             return False
         kept = max(1, math.ceil(len(values) * self.keep - 1e-9))
@@ -178,7 +201,7 @@ def choose_pruning(expected_trials: float | None) -> str:
 
     Ranking needs a population: with fewer than ``FEW_TRIALS`` trials nothing is pruned;
     otherwise successive halving, which lets a third of the first fold decide whether a model
-    gets the whole fold, one fold whether it gets two, and two whether it gets the rest.  The median rule stays a choice
+    gets the whole fold, and each fold whether it gets the next.  The median rule stays a choice
     (``--pruning median``): it measured no better at any trial count in ``benchmarks/pruning.py``.
     ``tunelab run`` estimates the count from the budget and the space builder's cost probes
     (``SpaceSpec.trial_seconds``); without an estimate it gets halving.
