@@ -1,7 +1,7 @@
 """Choosing the pruner, and two pruning rules that compare trials at equal steps only.
 
 Steps count work (see ``tunelab.engine._objective``): step 1 is a third of the first fold,
-step 3 one fold, step 6 two folds.  Two things follow for a fair comparison:
+step 3 one fold, step 6 two folds.  Three things follow for a fair comparison:
 
 * a trial is compared with the values other trials reported *at the same step* — optuna's own
   halving pruners instead take whatever value a trial had when it passed a rung, so a model
