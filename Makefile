@@ -26,4 +26,4 @@ test-fast: $(STAMP)
 	$(BIN)/python -m pytest -q -m "not slow"
 
 clean:
-	rm -rf $(VENV) studies/*.csv studies/*.db* studies/*.zip
+	rm -rf $(VENV) studies/*.csv studies/*.db* studies/*.zip studies/*.html

@@ -1,4 +1,4 @@
-"""`make demo`: generate the invented demo data, run its study file through the tunelab CLI, ship the model.
+"""`make demo`: generate the invented demo data, run its study file through the tunelab CLI, ship the model, write the report.
 
 Each step is a plain `tunelab` command, printed before it runs, so the demo doubles as a tour.
 """
@@ -34,11 +34,14 @@ def main() -> int:
     if code != 0:
         return code
     for args in (("status", spec["study"]), ("export", spec["study"], "--out", "demo-model.zip"),
-                 ("predict", "demo-model.zip", spec["data"], "--out", "demo-predictions.csv")):
-        code = tunelab(*args, "--store", spec["store"]) if args[0] in ("status", "export") else tunelab(*args)
+                 ("predict", "demo-model.zip", spec["data"], "--out", "demo-predictions.csv"),
+                 ("report", spec["study"], "--out", "demo-report.html")):
+        needs_store = args[0] in ("status", "export", "report")
+        code = tunelab(*args, "--store", spec["store"]) if needs_store else tunelab(*args)
         if code != 0:
             return code
-    print("\nThe demo study lives in studies/demo.db; try `tunelab status --store studies/demo.db`.")
+    print("\nThe demo study lives in studies/demo.db; try `tunelab status --store studies/demo.db`,"
+          " or open studies/demo-report.html in a browser.")
     return 0
 
 
