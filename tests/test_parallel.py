@@ -179,6 +179,20 @@ def test_the_schema_is_created_the_same_on_postgres_and_sqlite(pg_url, tmp_path)
         assert set(inspect(pg.engine).get_table_names()) == set(inspect(lite.engine).get_table_names())
 
 
+@pytest.mark.parametrize("store_kind", ["sqlite", pytest.param("postgres", marks=pytest.mark.postgres)])
+def test_a_report_reads_a_study_the_same_from_postgres_and_sqlite(store_kind, tmp_path, request):
+    from test_report import make_study
+
+    from tunelab.engine import FakeClock
+    from tunelab.ops import write_report
+
+    store = str(tmp_path / "s.db") if store_kind == "sqlite" else request.getfixturevalue("pg_url")
+    make_study(store, "shared", 12)
+    result = write_report("shared", store=store, out=tmp_path / "r.html", clock=FakeClock())
+    page = (tmp_path / "r.html").read_text(encoding="utf-8")
+    assert result.trials == 12 and "<h1>Study shared</h1>" in page and '<svg class="chart"' in page
+
+
 def _claim_all(store: str, name: str, start, found) -> None:
     """One worker process: claim every queued trial it can, as ``study.ask()`` does."""
     st = Store.open(store)
