@@ -20,6 +20,7 @@ from threadpoolctl import threadpool_limits
 from tunelab.data import load_dataset
 from tunelab.engine import (
     METRICS,
+    ROUNDS_ATTR,
     Budget,
     CrossValidationObjective,
     InProcessRunner,
@@ -27,6 +28,7 @@ from tunelab.engine import (
     PruneSignal,
     SystemClock,
     make_pruner,
+    settled_config,
 )
 from tunelab.engine._metrics import score
 from tunelab.engine._objective import _epoch_reporter
@@ -97,7 +99,9 @@ def test_ensembles_grown_in_chunks_score_like_one_plain_fit_of_the_same_size(dat
         seen, report = collect()
         result = CrossValidationObjective(dataset, metric, seed=0, n_folds=3)(config, report)
         assert [step for step, _ in seen] == [1, 2, 3, 6]
-        assert result.fold_scores[0] == first_fold_score(dataset, config, metric)
+        # Boosting is scored at the rounds its first fold chose (tests/test_boosting_rounds.py).
+        settled = settled_config(config, result.extras.get(ROUNDS_ATTR))
+        assert result.fold_scores[0] == pytest.approx(first_fold_score(dataset, settled, metric), rel=1e-12)
 
 
 def test_a_prune_signal_at_a_chunk_stops_the_trial_within_the_first_fold(dataset):

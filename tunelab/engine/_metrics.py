@@ -49,9 +49,19 @@ def resolve_metric(name: str | None, task: str) -> Metric:
 
 def score(metric: Metric, y_true: np.ndarray, model: Any, X: Any, classes: Sequence[Any] = ()) -> float:
     """Score a fitted model on held-out rows."""
+    output = model.predict_proba(X) if metric.needs_proba else model.predict(X)
+    return score_output(metric, y_true, output, list(getattr(model, "classes_", ())))
+
+
+def score_output(metric: Metric, y_true: np.ndarray, output: np.ndarray, labels: Sequence[Any] = ()) -> float:
+    """Score a model's output on held-out rows: class probabilities (columns in ``labels`` order)
+    when the metric needs them, predictions otherwise.
+
+    Apart from ``score`` so that outputs a model produces along the way (a boosting model's
+    staged probabilities) are scored exactly as the finished model is.
+    """
     if metric.needs_proba:
-        proba = model.predict_proba(X)
-        labels = list(model.classes_)
+        proba, labels = output, list(labels)
         if metric.name == "log_loss":
             return float(skm.log_loss(y_true, proba, labels=labels))
         if len(labels) == 2:
@@ -59,7 +69,7 @@ def score(metric: Metric, y_true: np.ndarray, model: Any, X: Any, classes: Seque
         present = np.isin(labels, np.unique(y_true))
         proba = proba[:, present] / np.clip(proba[:, present].sum(axis=1, keepdims=True), 1e-12, None)
         return float(skm.roc_auc_score(y_true, proba, multi_class="ovr", labels=np.asarray(labels)[present]))
-    pred = model.predict(X)
+    pred = output
     if metric.name == "accuracy":
         return float(skm.accuracy_score(y_true, pred))
     if metric.name == "rmse":

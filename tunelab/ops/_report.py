@@ -10,7 +10,7 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
 
-from tunelab.engine import Clock, SystemClock, trial_state
+from tunelab.engine import ROUNDS_ATTR, Clock, SystemClock, settled_config, trial_state
 from tunelab.errors import InputError, TunelabError
 from tunelab.insight import (
     GENERATOR,
@@ -100,7 +100,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
     def config_of(t: Any) -> dict[str, Any]:
         # The trial's phase fills in what its space held fixed (one family, frozen knobs), as export does.
         space = spaces.get(int(t.user_attrs.get("tl_phase", first_phase)), spaces[first_phase])
-        return space.complete(t.params)
+        return settled_config(space.complete(t.params), t.user_attrs.get(ROUNDS_ATTR))
 
     counts = {s: 0 for s in _COUNTED}
     points: list[ChartPoint] = []

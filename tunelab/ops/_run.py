@@ -12,6 +12,7 @@ from typing import Any, Callable
 
 from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset
 from tunelab.engine import (
+    ROUNDS_ATTR,
     Budget,
     Clock,
     CrossValidationObjective,
@@ -24,6 +25,7 @@ from tunelab.engine import (
     make_pruner,
     resolve_metric,
     search,
+    settled_config,
 )
 from tunelab.errors import InputError, StudyStateError
 from tunelab.ops._profile import built_space
@@ -208,8 +210,15 @@ def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, spa
                              on_progress=on_progress)
     best: dict[str, Any] = {}
     if summary.best_trial is not None:
-        best = dict(study.trials[summary.best_trial].params)
+        best = _best_config(study.trials[summary.best_trial], space)
     return RunResult(record.name, store.location.display(), record.metric, record.direction, summary, best)
+
+
+def _best_config(trial: Any, space: SpaceSpec) -> dict[str, Any]:
+    """The best trial's sampled parameters, and the boosting rounds its cross-validation used."""
+    config = space.complete(trial.params)
+    settled = settled_config(config, trial.user_attrs.get(ROUNDS_ATTR))
+    return {k: v for k, v in settled.items() if k in trial.params or v != config.get(k)}
 
 
 def _warm_up_configs(space: SpaceSpec) -> list[dict[str, Any]]:
@@ -326,7 +335,7 @@ def join_objective_study(name: str, objective: Any, *, store: str | None = None,
         with stop_on_signals():
             summary = search(st, record, study, space, runner, budget, clock=clock, settings=settings,
                              on_progress=on_progress)
-        best = dict(study.trials[summary.best_trial].params) if summary.best_trial is not None else {}
+        best = _best_config(study.trials[summary.best_trial], space) if summary.best_trial is not None else {}
         return RunResult(record.name, st.location.display(), record.metric, record.direction, summary, best)
 
 

@@ -13,7 +13,7 @@ import pandas as pd
 
 from tunelab import __version__
 from tunelab.data import clean_column, load_dataset, read_table
-from tunelab.engine import Clock, SystemClock, trial_state
+from tunelab.engine import ROUNDS_ATTR, Clock, SystemClock, settled_config, trial_state
 from tunelab.errors import InputError, ModelFileError, StudyStateError
 from tunelab.models import build_pipeline, capped_rows, row_cap
 from tunelab.models._model_file import check_columns, load_pipeline, read_meta, write_model_file
@@ -75,7 +75,8 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
         dataset = load_dataset(Path(record.data_path), record.target, record.task)
         phases = {p.number: p for p in st.phases(record.id)}
         phase = phases.get(int(chosen.user_attrs.get("tl_phase", 1)), phases[min(phases)])
-        config = SpaceSpec.from_json(phase.space_json).complete(chosen.params)
+        config = settled_config(SpaceSpec.from_json(phase.space_json).complete(chosen.params),
+                                chosen.user_attrs.get(ROUNDS_ATTR))
         pipeline = build_pipeline(config, dataset.roles, {c.name: c.n_unique for c in dataset.columns},
                                   dataset.task, seed=record.seed, n_threads=1)
         with warnings.catch_warnings():

@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from tunelab.engine import trial_state
+from tunelab.engine import ROUNDS_ATTR, settled_config, trial_state
 from tunelab.engine._pruning import choose_pruning
 from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord
@@ -136,5 +136,13 @@ def _trial_line(t: Any) -> TrialLine:
     attrs = t.user_attrs
     return TrialLine(number=t.number, state=trial_state(t), value=t.value, fold_std=attrs.get("fold_std"),
                      family=str(t.params.get("family", "")),
-                     duration=t.duration.total_seconds() if t.duration else None, params=dict(t.params),
+                     duration=t.duration.total_seconds() if t.duration else None,
+                     params=_shown_params(t.params, attrs.get(ROUNDS_ATTR)),
                      note=attrs.get("error", ""))
+
+
+def _shown_params(params: dict[str, Any], rounds: int | None) -> dict[str, Any]:
+    """A trial's sampled parameters; a boosting trial's rounds as its folds fitted them."""
+    if rounds is None or "family" not in params:
+        return dict(params)
+    return settled_config(params, rounds)
