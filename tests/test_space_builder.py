@@ -25,7 +25,7 @@ from tunelab.data._metafeatures import SCALING_RULES, CostProbe, MetaFeatures, c
 from tunelab.models import build_pipeline
 from tunelab.models._families import MLP_RUNGS, mlp_rung_params
 from tunelab.models._preprocess import build_preprocessor, signed_log1p
-from tunelab.space import FAMILY_NAMES, SpaceSpec, build_space
+from tunelab.space import FAMILY_NAMES, SpaceSpec, TransformProbe, build_space
 
 CHEAP = {f: 0.001 for f in FAMILY_NAMES}  # seconds per fit on all rows: every family affordable
 
@@ -208,15 +208,27 @@ def test_penalty_range_moves_toward_strong_regularisation_with_few_rows_per_colu
 # --------------------------------------------------------------------------- preprocessing
 
 
-def test_quantile_transform_is_the_prior_on_skewed_data() -> None:
+def test_log_map_is_the_prior_on_skewed_data_without_a_probe() -> None:
     space = _space("skewed")
     scaled = [f for f in ("linear", "svm", "knn", "mlp") if f in space.families]
     assert "linear" in scaled
     for family in scaled:
         spec = space.families[family].params["num_transform"]
-        assert spec.choices[0] == "quantile" and "log" in spec.choices
+        assert spec.choices == ("log", "standard", "quantile")
         warm = next(w for w in space.warm_starts if w["family"] == family)
-        assert warm[f"{family}.num_transform"] == "quantile"
+        assert warm[f"{family}.num_transform"] == "log"
+
+
+def test_the_transform_probe_orders_the_maps_and_says_so() -> None:
+    dataset, meta = _data("skewed")
+    probe = TransformProbe({"log": 0.80, "standard": 0.70, "quantile": 0.90}, "roc_auc", True, 1000, 3, 0.5)
+    space = build_space(dataset, _with_costs(meta, CHEAP), budget_seconds=600.0, transform_probe=probe)
+    spec = space.families["linear"].params["num_transform"]
+    assert spec.choices == ("quantile", "log", "standard")
+    assert "quantile first by the linear probe on 1000 rows" in spec.reason
+    warm = next(w for w in space.warm_starts if w["family"] == "linear")
+    assert warm["linear.num_transform"] == "quantile"
+    assert any("numeric map tried first" in note for note in space.notes)
 
 
 def test_plain_scaling_is_the_prior_on_symmetric_data() -> None:

@@ -16,7 +16,7 @@ from typing import Any
 from tunelab.data import Dataset, load_dataset
 from tunelab.data._metafeatures import MetaFeatures, compute_metafeatures
 from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
-from tunelab.space import SpaceSpec
+from tunelab.space import SpaceSpec, numeric_map_choices, probe_transforms
 from tunelab.space._builder import build_space
 
 # Meta-feature effort: landmarkers on at most this many rows, each stopped after this many seconds,
@@ -142,8 +142,14 @@ def built_space(dataset: Dataset, *, budget_seconds: float | None, metric: str |
     seed
         Seeds the meta-feature subsamples.
     """
-    return build_space(dataset, profile_metafeatures(dataset, seed=seed), budget_seconds=budget_seconds,
-                       metric=metric)
+    return _space(dataset, profile_metafeatures(dataset, seed=seed), budget_seconds, metric, seed)
+
+
+def _space(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None,
+           seed: int) -> SpaceSpec:
+    choices = numeric_map_choices(meta.statistical.mean_abs_skewness)
+    probe = probe_transforms(dataset, metric, choices, seed=seed)
+    return build_space(dataset, meta, budget_seconds=budget_seconds, metric=metric, transform_probe=probe)
 
 
 def profile_data(path: str | Path, target: str, task: str | None = None, *,
@@ -182,7 +188,7 @@ def profile_data(path: str | Path, target: str, task: str | None = None, *,
 
         metric = resolve_metric(metric, dataset.task).name  # the same refusal as run's
     meta = profile_metafeatures(dataset, seed=seed)
-    space = build_space(dataset, meta, budget_seconds=budget_seconds, metric=metric)
+    space = _space(dataset, meta, budget_seconds, metric, seed)
     tokens = meta.simple.mean_text_tokens
     columns = tuple(ColumnProfile(c.name, c.role, c.reason, c.n_unique, c.missing_share,
                                   tokens.get(c.name) if c.role == "text" else None, _treatment(c.role, c.n_unique,

@@ -28,6 +28,7 @@ from typing import Any, Mapping
 import numpy as np
 
 from tunelab.data import Dataset
+from tunelab.space._transform_probe import TransformProbe
 from tunelab.data._metafeatures import MetaFeatures, scaled_cost
 from tunelab.models._families import MLP_RUNGS
 from tunelab.models._row_cap import ROWS_KEY
@@ -118,6 +119,7 @@ class _Facts:
     n_numeric: int
     landmarks: Mapping[str, float]
     metric: str
+    transform_probe: TransformProbe | None = None
 
     @property
     def signal(self) -> float | None:
@@ -142,7 +144,8 @@ class _Decision:
     second: dict[str, Any] | None = None  # a second warm start, hedging the first one's regime
 
 
-def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None) -> _Facts:
+def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None,
+           transform_probe: TransformProbe | None = None) -> _Facts:
     # the study's own fold rule and default metric; imported here because the engine imports space
     from tunelab.engine._folds import fold_count
     from tunelab.engine._metrics import DEFAULT_METRIC
@@ -175,7 +178,7 @@ def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, m
         budget=float(budget_seconds) if budget_seconds else REFERENCE_BUDGET_S,
         budget_given=bool(budget_seconds), skew=meta.statistical.mean_abs_skewness,
         imbalance=meta.information.imbalance_ratio, n_numeric=meta.simple.n_numeric,
-        landmarks=landmarks, metric=metric or DEFAULT_METRIC[dataset.task],
+        landmarks=landmarks, metric=metric or DEFAULT_METRIC[dataset.task], transform_probe=transform_probe,
     )
 
 
@@ -272,18 +275,35 @@ def _put(d: _Decision, name: str, spec: ParamSpec, preferred: Any = None) -> Non
 # --------------------------------------------------------------------------------------
 
 
+def numeric_map_choices(mean_abs_skewness: float | None) -> tuple[str, ...]:
+    """The numeric maps scaled models search, in the order the skewness rule prefers them."""
+    if mean_abs_skewness is not None and mean_abs_skewness > _SKEW_HIGH:
+        return ("log", "standard", "quantile")
+    return ("standard", "quantile")
+
+
 def _numeric_transform(d: _Decision, facts: _Facts) -> None:
-    """Log or quantile maps for scaled models when the numeric columns are skewed."""
+    """Numeric maps for scaled models: which ones by skewness, in which order by the probe.
+
+    Skewed columns add the log map to the choices; the transform probe (the linear pipeline
+    under each map, held-out folds) puts the best map first, which makes it the warm start.
+    Without a probe the skewness rule orders them, log before quantile.
+    """
     if facts.n_numeric == 0 or facts.skew is None:
         return
-    if facts.skew > _SKEW_HIGH:
-        _put(d, "num_transform", _cat(("quantile", "log", "standard"),
-                                      f"numeric columns skewed (mean |skewness| {facts.skew:.1f} > {_SKEW_HIGH:g}): "
-                                      "quantile or log map first, plain scaling kept"))
+    rule = numeric_map_choices(facts.skew)
+    if len(rule) == 3:
+        why = f"numeric columns skewed (mean |skewness| {facts.skew:.1f} > {_SKEW_HIGH:g}): log, plain, quantile maps"
     else:
-        _put(d, "num_transform", _cat(("standard", "quantile"),
-                                      f"numeric columns near symmetric (mean |skewness| {facts.skew:.1f}): "
-                                      "plain scaling first, quantile map kept"))
+        why = f"numeric columns near symmetric (mean |skewness| {facts.skew:.1f}): plain scaling and quantile map"
+    probe = facts.transform_probe
+    if probe is not None and len(set(rule) & set(probe.scores)) >= 2:
+        order = probe.ranked(rule)
+        why += f"; {order[0]} first by the {probe.describe()}"
+    else:
+        order = rule
+        why += f"; {order[0]} first"
+    _put(d, "num_transform", _cat(order, why))
 
 
 def _class_weight(d: _Decision, facts: _Facts) -> None:
@@ -626,7 +646,9 @@ def _preprocessing_notes(dataset: Dataset, facts: _Facts) -> list[str]:
         notes.append(f"{len(missing)} numeric columns with missing values: median fill plus a missing indicator")
     if facts.skew is not None and facts.skew > _SKEW_HIGH:
         notes.append(f"numeric columns skewed (mean |skewness| {facts.skew:.1f}): scaled models search "
-                     "quantile and log maps")
+                     "log and quantile maps beside plain scaling")
+    if facts.transform_probe is not None:
+        notes.append(f"numeric map tried first by scaled models from the {facts.transform_probe.describe()}")
     if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH and facts.metric != "log_loss":
         notes.append(f"classes imbalanced ({facts.imbalance:.1f} : 1): class weights searched")
     return notes
@@ -648,7 +670,7 @@ def _regime_notes(facts: _Facts) -> list[str]:
 
 
 def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float | None,
-                metric: str | None = None) -> SpaceSpec:
+                metric: str | None = None, transform_probe: TransformProbe | None = None) -> SpaceSpec:
     """Build a search space for one dataset from its meta-features and the budget.
 
     Parameters
@@ -664,6 +686,10 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
     metric
         The study's metric; ``None`` means the task's default.  Class weights are not searched
         under log loss, which scores the probabilities that reweighting biases.
+    transform_probe
+        Held-out scores of the linear pipeline under each numeric map
+        (:func:`tunelab.space._transform_probe.probe_transforms`); it orders the maps the scaled
+        families search.  ``None`` leaves the order to the skewness rule.
 
     Returns
     -------
@@ -671,7 +697,7 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
         Families that fit, ranges scaled to the data, warm starts at the prior centres of the
         most promising families first, and a one-line reason for every decision.
     """
-    facts = _facts(dataset, meta, budget_seconds, metric)
+    facts = _facts(dataset, meta, budget_seconds, metric, transform_probe)
     mlp, mlp_notes = _mlp(facts, meta)
     decisions = [_on_fewer_rows(_hist_gb, facts, meta),
                  _on_fewer_rows(lambda f, m: _forest("random_forest", f, m), facts, meta),
@@ -699,4 +725,4 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
                      family_reason=family_reason, trial_seconds=statistics.median(costs) if costs else None)
 
 
-__all__ = ["FAMILY_NAMES", "REFERENCE_BUDGET_S", "build_space"]
+__all__ = ["FAMILY_NAMES", "REFERENCE_BUDGET_S", "build_space", "numeric_map_choices"]
