@@ -7,7 +7,7 @@ import math
 
 import pytest
 
-from tunelab.engine import Budget, FakeClock, SearchSettings, TrialResult
+from tunelab.engine import ROUNDS_ATTR, Budget, FakeClock, SearchSettings, TrialResult
 from tunelab.ops import run_objective_study, study_importance
 from tunelab.space import FamilySpec, ParamSpec, SpaceSpec
 
@@ -140,3 +140,21 @@ def test_freeze_auto_then_resume_on_the_demo_data_runs_in_the_narrowed_space(cli
                 assert trial.params.get("family", value) == value
             else:
                 assert key not in trial.params  # a frozen knob is no longer sampled
+
+
+def test_importance_says_the_boosting_rounds_row_is_a_ceiling(cli, store_path):
+    # Each boosting trial keeps the rounds its first fold scored best (tunelab.engine.ROUNDS_ATTR),
+    # so the sampled max_iter only bounds them; the table must not read as the rounds used.
+    space = SpaceSpec(families={"hist_gb": FamilySpec({"max_iter": ParamSpec("int", low=100, high=400),
+                                                       "learning_rate": ParamSpec("float", low=0.01, high=0.3)})})
+
+    def boosting(config, report):
+        ceiling = config["hist_gb.max_iter"]
+        return TrialResult(config["hist_gb.learning_rate"], extras={ROUNDS_ATTR: ceiling // 4})
+
+    run_objective_study("gb", boosting, space, Budget(trials=30), store=str(store_path), sampler="random", seed=2,
+                        clock=FakeClock(), settings=SearchSettings(heartbeat_interval=None))
+    data = json.loads(cli("importance", "gb", "--store", str(store_path), "--json").out)
+    assert data["notes"] == ["hist_gb.max_iter is a ceiling, not the rounds used: each trial kept the rounds its first "
+                             "fold scored best (median 25% of the ceiling over 30 trials)"]
+    assert "note: hist_gb.max_iter is a ceiling" in cli("importance", "gb", "--store", str(store_path)).out

@@ -160,6 +160,8 @@ def print_importance(record: Any, report: Any) -> None:
     for group in report.groups:
         if group.trials_needed:
             out.print(f"note: {group.message}")
+    for note in report.notes:
+        out.print(f"note: {note}")
     if not report.enough_trials:
         out.print(f"about {report.trials_needed} more trials would make this table stable")
 

@@ -303,6 +303,8 @@ class ImportanceReport:
     trials_needed
         About how many more trials, at the current mix of families, until every group has
         enough (0 when all do).
+    notes
+        How to read particular rows (a parameter that is a ceiling rather than the value used).
     """
 
     rows: tuple[ImportanceRow, ...]
@@ -312,6 +314,7 @@ class ImportanceReport:
     n_bootstrap: int
     tree_depth: int | None
     trials_needed: int
+    notes: tuple[str, ...] = ()
 
     @property
     def enough_trials(self) -> bool:
@@ -337,6 +340,7 @@ class ImportanceReport:
             "enough_trials": self.enough_trials,
             "rows": [r.to_dict() for r in self.rows],
             "groups": [g.to_dict() for g in self.groups],
+            "notes": list(self.notes),
         }
 
 

@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+import dataclasses
+import statistics
 from dataclasses import asdict, dataclass
 from typing import Any, Mapping
 
-from tunelab.engine import Clock, SystemClock, trial_state
+from tunelab.engine import ROUNDS_ATTR, Clock, SystemClock, trial_state
 from tunelab.errors import InputError, StudyStateError
 from tunelab.insight import ImportanceReport, Thresholds, TrialRecord, importance_table
 from tunelab.space import SpaceSpec
@@ -23,7 +25,7 @@ def study_importance(name: str, *, store: str | None = None, method: str = "fano
         raise InputError(f"unknown importance method '{method}'", "use fanova or ped-anova")
     with Store.open(store) as st:
         record = st.get_study(name)
-        trials, distributions = _records(st, record)
+        trials, distributions, notes = _records(st, record)
     if not any(t.state == "complete" for t in trials):
         raise StudyStateError(f"study '{name}' has no finished trials yet, so nothing to rank",
                               f"run more trials: tunelab resume {name} --extend 10m")
@@ -35,7 +37,7 @@ def study_importance(name: str, *, store: str | None = None, method: str = "fano
     report = importance_table(trials, distributions, direction=record.direction,  # type: ignore[arg-type]
                               method=method, family=family,  # type: ignore[arg-type]
                               thresholds=Thresholds(spread_tolerance=tolerance), seed=seed)
-    return record, report
+    return record, dataclasses.replace(report, notes=report.notes + notes)
 
 
 @dataclass
@@ -94,12 +96,28 @@ def freeze_parameters(name: str, assignments: Mapping[str, str], *, auto: bool =
     return FreezeResult(record.name, phase, frozen, reasons, first)
 
 
-def _records(st: Store, record: StudyRecord) -> tuple[list[TrialRecord], dict[str, Any]]:
+def _records(st: Store, record: StudyRecord) -> tuple[list[TrialRecord], dict[str, Any], tuple[str, ...]]:
     import optuna
 
     study = optuna.load_study(study_name=record.name, storage=st.optuna_storage())
     distributions = _distributions(st, record)
-    return _trial_records(study.get_trials(deepcopy=False), distributions), distributions
+    study_trials = study.get_trials(deepcopy=False)
+    return _trial_records(study_trials, distributions), distributions, _ceiling_notes(study_trials, distributions)
+
+
+def _ceiling_notes(study_trials: Any, distributions: Mapping[str, Any]) -> tuple[str, ...]:
+    """Say which rows are ceilings: boosting keeps the rounds its first fold scored best."""
+    used: dict[str, list[float]] = {}
+    for t in study_trials:
+        rounds = t.user_attrs.get(ROUNDS_ATTR)
+        family = t.params.get("family")  # absent when the space has one family
+        for key, ceiling in t.params.items():
+            if (rounds is not None and key.endswith(".max_iter") and key in distributions and ceiling
+                    and (family is None or key == f"{family}.max_iter")):
+                used.setdefault(key, []).append(float(rounds) / float(ceiling))
+    return tuple(f"{key} is a ceiling, not the rounds used: each trial kept the rounds its first fold scored best "
+                 f"(median {statistics.median(shares):.0%} of the ceiling over {len(shares)} trials)"
+                 for key, shares in sorted(used.items()))
 
 
 def _distributions(st: Store, record: StudyRecord) -> dict[str, Any]:
