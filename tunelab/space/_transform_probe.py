@@ -1,13 +1,14 @@
 """Which numeric map (plain scaling, signed log, quantile) suits the scaled models on this data.
 
 Skewness alone misleads: pixel intensities are zero-inflated and "highly skewed", yet a quantile
-map squeezes their scale away and triples an RBF SVM's log loss on scikit-learn's digits, while
-on long-tailed money columns a log map wins.  So the builder asks the data: the linear family's
+map squeezes their scale away: on scikit-learn's digits it raises the linear model's log loss from
+0.12 to 0.30 and k-nearest neighbours' from 0.21 to 0.37, while on hpc's long tails the log map
+beats both others for the linear model and the SVM.  So the builder asks the data: the linear family's
 own pipeline, fitted with each map on a capped row sample and scored on held-out folds with the
 study's metric, orders the maps, and that order becomes the prior (first map = warm start).
-The linear model stands in for every scaled family because it is the cheapest one; its order
-agreed with an RBF SVM's on five of six benchmark datasets when this probe was written
-(benchmarks/README.md, "numeric map probe").
+The linear model stands in for every scaled family because it is the cheapest one.  Checked side
+by side (``benchmarks/numeric_maps.py``, six benchmark datasets): its pick was within 1 % of the RBF
+SVM's best map on all six, but not of k-nearest neighbours' on three (digits, hpc, ames).
 """
 
 from __future__ import annotations
