@@ -17,6 +17,7 @@ from conftest import small_frame
 from tunelab.data import load_dataset
 from tunelab.engine import METRICS, ROUNDS_ATTR, CrossValidationObjective, settled_config
 from tunelab.engine._metrics import score
+from tunelab.engine._objective import _HeldOut, chunk_ends, early_stop_patience, fit_in_parts
 from tunelab.models import build_pipeline
 from tunelab.models._model_file import read_meta
 from tunelab.space import FamilySpec, SpaceSpec, fixed
@@ -62,9 +63,44 @@ def test_every_fold_scores_like_a_plain_fit_of_the_chosen_rounds(dataset, metric
         assert result.fold_scores[fold] == pytest.approx(fold_score(dataset, settled, metric, fold), rel=1e-9)
 
 
-def test_the_chosen_rounds_are_one_of_twenty_evenly_spaced_checks(dataset):
-    result = evaluate(dataset, OVERFITTING, METRICS["log_loss"])
-    assert result.extras[ROUNDS_ATTR] % 10 == 0  # 200 rounds, checked every 10
+def first_fold_model(dataset, config, metric):
+    """The boosting model the first fold grew (chunked, stopping on the held-out loss)."""
+    objective = CrossValidationObjective(dataset, metric, seed=0, n_folds=3)
+    train, test = objective.folds[0]
+    pipeline = build_pipeline(config, dataset.roles, objective.cardinality, dataset.task, seed=0)
+    held_out = _HeldOut(metric, dataset.y[test], dataset.classes)
+    with threadpool_limits(1):
+        first = fit_in_parts(pipeline, dataset.X.iloc[train], dataset.y[train], dataset.X.iloc[test], held_out,
+                             lambda step, value: None)
+    return pipeline, first, (train, test)
+
+
+def test_the_chosen_rounds_are_one_of_twenty_evenly_spaced_checks_of_the_rounds_grown(dataset):
+    pipeline, first, _ = first_fold_model(dataset, OVERFITTING, METRICS["log_loss"])
+    grown = pipeline[-1].n_iter_
+    assert first.rounds in chunk_ends(grown, 20)
+
+
+def test_the_first_fold_stops_growing_once_the_held_out_loss_stops_improving(dataset):
+    # External check: scikit-learn's own early stopping (HistGradientBoostingClassifier with
+    # X_val / y_val, scoring="loss") on the same fold, in one call, stops at the same round.
+    pipeline, _, (train, test) = first_fold_model(dataset, OVERFITTING, METRICS["log_loss"])
+    grown = pipeline[-1].n_iter_
+    assert grown < 200
+    reference = build_pipeline(OVERFITTING, dataset.roles, {c.name: c.n_unique for c in dataset.columns},
+                               dataset.task, seed=0)
+    prep = reference[:-1]
+    X_train = prep.fit_transform(dataset.X.iloc[train], dataset.y[train])
+    model = reference[-1].set_params(early_stopping=True, scoring="loss", n_iter_no_change=early_stop_patience(200))
+    with threadpool_limits(1):
+        model.fit(X_train, dataset.y[train], X_val=prep.transform(dataset.X.iloc[test]), y_val=dataset.y[test])
+    assert grown == model.n_iter_
+
+
+def test_a_model_still_learning_grows_to_its_ceiling(dataset):
+    slow = {**OVERFITTING, "hist_gb.learning_rate": 0.01, "hist_gb.max_iter": 30, "hist_gb.min_samples_leaf": 20}
+    pipeline, _, _ = first_fold_model(dataset, slow, METRICS["log_loss"])
+    assert pipeline[-1].n_iter_ == 30
 
 
 def test_a_regression_trial_chooses_rounds_on_its_own_metric(tmp_path):
