@@ -10,14 +10,16 @@ from __future__ import annotations
 import json
 import sys
 
+import numpy as np
 import pytest
+from sklearn.ensemble import HistGradientBoostingClassifier
 from threadpoolctl import threadpool_limits
 
 from conftest import small_frame
 from tunelab.data import load_dataset
 from tunelab.engine import METRICS, ROUNDS_ATTR, CrossValidationObjective, settled_config
 from tunelab.engine._metrics import score
-from tunelab.engine._objective import _HeldOut, chunk_ends, early_stop_patience, fit_in_parts
+from tunelab.engine._objective import _HeldOut, _stop_on_held_out, chunk_ends, early_stop_patience, fit_in_parts
 from tunelab.models import build_pipeline
 from tunelab.models._model_file import read_meta
 from tunelab.space import FamilySpec, SpaceSpec, fixed
@@ -101,6 +103,15 @@ def test_a_model_still_learning_grows_to_its_ceiling(dataset):
     slow = {**OVERFITTING, "hist_gb.learning_rate": 0.01, "hist_gb.max_iter": 30, "hist_gb.min_samples_leaf": 20}
     pipeline, _, _ = first_fold_model(dataset, slow, METRICS["log_loss"])
     assert pipeline[-1].n_iter_ == 30
+
+
+def test_no_early_stop_when_the_held_out_rows_hold_a_class_the_training_rows_lack():
+    # A row-capped trial can lose a rare class from its training rows; the model could not
+    # encode that class in y_val, so the first fold grows to its ceiling instead of failing.
+    model = HistGradientBoostingClassifier(early_stopping=False)
+    held_out = _HeldOut(METRICS["log_loss"], np.array([0, 1, 2]), np.array([0, 1, 2]))
+    assert _stop_on_held_out(model, 100, np.array([0, 1, 0, 1]), np.zeros((3, 1)), held_out) == {}
+    assert model.early_stopping is False
 
 
 def test_a_regression_trial_chooses_rounds_on_its_own_metric(tmp_path):

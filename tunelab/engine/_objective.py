@@ -339,9 +339,10 @@ def _stop_on_held_out(model: Any, ceiling: int, y_train: np.ndarray, X_test: Any
     The sampled round count is a ceiling (see ``best_rounds``).  In ``benchmarks/pruning.py``
     stores (unpruned searches of hpc, diamonds and default, seeds 2-3) the first fold chose a
     median 33-66 % of it in four of the six (100 % in two), yet fitted all of it, so the first
-    fold — all a trial pruned there costs — took up to three times as long as each later fold.  scikit-learn's own early stopping, on the fold's held-out rows and the model's loss
-    (log loss, squared error), stops ``early_stop_patience`` rounds after the best; the trees up
-    to there are the trees a full fit grows, so ``best_rounds`` chooses among them as before.
+    fold — all a trial pruned there costs — took up to three times as long as each later fold.
+    scikit-learn's own early stopping, on the fold's held-out rows and the model's loss (log
+    loss, squared error), stops ``early_stop_patience`` rounds after the best; the trees up to
+    there are the trees a full fit grows, so ``best_rounds`` chooses among them as before.
     Returns the ``fit`` keywords, or nothing when the held-out rows hold a class the training
     rows lack (a row-capped trial), which the model could not encode.
     """
