@@ -33,13 +33,14 @@ import optuna  # noqa: E402
 from optuna.trial import TrialState  # noqa: E402
 
 from tunelab.engine._objective import STEPS_PER_FOLD  # noqa: E402
-from tunelab.engine._pruning import KEEP, RUNG_STEPS, RungPruner  # noqa: E402
+from tunelab.engine._pruning import KEEP, MARGIN_SE, RUNG_STEPS, RungPruner  # noqa: E402
 
 RULES: dict[str, dict[str, Any]] = {
-    "every fold + family (default)": dict(rungs=RUNG_STEPS, keep=KEEP),
-    "every fold, all families": dict(rungs=RUNG_STEPS, keep=KEEP, within_family=False),
-    "rungs 1,3,6 + family": dict(rungs=(1, 3, 6), keep=KEEP),
-    "rungs 1,3,6, all families": dict(rungs=(1, 3, 6), keep=KEEP, within_family=False),
+    f"margin {MARGIN_SE:g} SE (default)": dict(rungs=RUNG_STEPS, keep=KEEP),
+    "no margin": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=0.0),
+    "margin 0.5 SE": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=0.5),
+    "margin 2 SE": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=2.0),
+    "no margin, all families": dict(rungs=RUNG_STEPS, keep=KEEP, within_family=False, margin_se=0.0),
 }
 
 
@@ -64,6 +65,8 @@ def replay(trials: list[optuna.trial.FrozenTrial], direction: str, rule: dict[st
                 stopped = step
                 break
         if stopped is None:
+            if "fold_scores" in frozen.user_attrs:  # what the margin's fold noise is measured from
+                trial.set_user_attr("fold_scores", frozen.user_attrs["fold_scores"])
             study.tell(trial, frozen.value)
         else:
             study.tell(trial, state=TrialState.PRUNED)

@@ -32,7 +32,7 @@ from tunelab.engine import (
 )
 from tunelab.engine._metrics import score
 from tunelab.engine._objective import _epoch_reporter
-from tunelab.engine._pruning import MedianPruner, RungPruner, choose_pruning
+from tunelab.engine._pruning import MARGIN_SE, MedianPruner, RungPruner, choose_pruning, fold_noise
 from tunelab.errors import InputError
 from tunelab.models import build_pipeline
 from tunelab.ops import list_studies, run_objective_study
@@ -317,6 +317,74 @@ def test_hyperband_brackets_start_pruning_at_later_rungs():
     assert not trial.should_prune()
     trial.report(0.1, 3)
     assert trial.should_prune()
+
+
+def finished_with_folds(study, fold_scores, family="hist_gb"):
+    """A finished trial with these per-fold scores, reporting their running means at every fold but the last."""
+    study.enqueue_trial({"family": family})
+    trial = study.ask()
+    trial.suggest_categorical("family", ["hist_gb", "random_forest", "linear"])
+    for fold in range(1, len(fold_scores)):
+        trial.report(float(np.mean(fold_scores[:fold])), 3 * fold)
+    trial.set_user_attr("fold_scores", list(fold_scores))
+    study.tell(trial, float(np.mean(fold_scores)))
+
+
+def test_fold_noise_is_the_residual_of_trial_and_fold_effects_as_a_two_way_anova_finds_it():
+    # External check: statsmodels' ols + anova_lm, two-way additive model without replication
+    # (score ~ C(trial) + C(fold)); the noise is the square root of the residual mean square.
+    import pandas as pd
+    import statsmodels.formula.api as smf
+    from statsmodels.stats.anova import anova_lm
+
+    rng = np.random.default_rng(0)
+    scores = 0.8 + rng.normal(0, 0.03, (6, 1)) + rng.normal(0, 0.05, (1, 5)) + rng.normal(0, 0.01, (6, 5))
+    study = optuna.create_study(direction="maximize")
+    for row in scores:
+        finished_with_folds(study, row)
+    long = pd.DataFrame([(t, f, scores[t, f]) for t in range(6) for f in range(5)], columns=["trial", "fold", "score"])
+    table = anova_lm(smf.ols("score ~ C(trial) + C(fold)", data=long).fit())
+    assert fold_noise(study) == pytest.approx(math.sqrt(table.loc["Residual", "mean_sq"]), rel=1e-9)
+
+
+def test_fold_noise_is_zero_when_folds_shift_every_trial_alike_and_unknown_before_two_finish():
+    study = optuna.create_study(direction="maximize")
+    assert fold_noise(study) is None
+    hard_and_easy_folds = np.array([0.0, -0.10, 0.05, -0.02, 0.07])
+    finished_with_folds(study, 0.80 + hard_and_easy_folds)
+    assert fold_noise(study) is None
+    finished_with_folds(study, 0.70 + hard_and_easy_folds)
+    assert fold_noise(study) == pytest.approx(0.0, abs=1e-12)
+
+
+def test_a_trial_behind_the_kept_share_by_less_than_chance_goes_on_and_further_behind_is_pruned():
+
+    # Two finished trials that disagree fold by fold (+-0.02 each way): a residual spread of
+    # sqrt(8 * 0.02**2 / 4) = 0.0283, so after one fold two running means differ by chance with
+    # a standard deviation of 0.0283 * sqrt(2) = 0.04.
+    wobble = np.array([0.02, -0.02, 0.02, -0.02, 0.0])
+
+    def two_finished(**kwargs):
+        study = rung_study(min_peers=2, **kwargs)
+        finished_with_folds(study, 0.80 + wobble)  # 0.82 after one fold: the best third of three
+        finished_with_folds(study, 0.80 - wobble)
+        return study
+
+    assert fold_noise(two_finished()) == pytest.approx(0.02 * math.sqrt(2))
+    chance_after_one_fold = 0.04
+    best_third_at_fold_one = 0.82
+    margin = MARGIN_SE * chance_after_one_fold
+    assert not ask_and_report(two_finished(), {3: best_third_at_fold_one - 0.9 * margin})
+    assert ask_and_report(two_finished(), {3: best_third_at_fold_one - 1.1 * margin})
+    assert ask_and_report(two_finished(margin_se=1.0), {3: best_third_at_fold_one - 2.2 * margin})
+    # Without the margin (margin_se=0) the textbook rule prunes the first one too.
+    assert ask_and_report(two_finished(margin_se=0), {3: best_third_at_fold_one - 0.9 * margin})
+
+
+def test_without_two_finished_trials_to_measure_chance_a_rung_prunes_by_rank_alone():
+    study = rung_study(min_peers=2)
+    ask_and_report(study, {3: 0.90})  # finished, but without fold scores
+    assert ask_and_report(study, {3: 0.899})
 
 
 def test_auto_pruning_follows_the_expected_trial_count():
