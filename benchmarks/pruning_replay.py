@@ -33,13 +33,12 @@ import optuna  # noqa: E402
 from optuna.trial import TrialState  # noqa: E402
 
 from tunelab.engine._objective import STEPS_PER_FOLD  # noqa: E402
-from tunelab.engine._pruning import KEEP, MARGIN_SE, RUNG_STEPS, RungPruner  # noqa: E402
+from tunelab.engine._pruning import KEEP, RUNG_STEPS, RungPruner  # noqa: E402
 
 RULES: dict[str, dict[str, Any]] = {
-    f"margin {MARGIN_SE:g} SE (default)": dict(rungs=RUNG_STEPS, keep=KEEP),
-    "no margin": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=0.0),
+    "no margin (default)": dict(rungs=RUNG_STEPS, keep=KEEP),
     "margin 0.5 SE": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=0.5),
-    "margin 2 SE": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=2.0),
+    "margin 1 SE": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=1.0),
     "no margin, all families": dict(rungs=RUNG_STEPS, keep=KEEP, within_family=False, margin_se=0.0),
 }
 

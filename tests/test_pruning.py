@@ -373,12 +373,13 @@ def test_a_trial_behind_the_kept_share_by_less_than_chance_goes_on_and_further_b
     assert fold_noise(two_finished()) == pytest.approx(0.02 * math.sqrt(2))
     chance_after_one_fold = 0.04
     best_third_at_fold_one = 0.82
-    margin = MARGIN_SE * chance_after_one_fold
-    assert not ask_and_report(two_finished(), {3: best_third_at_fold_one - 0.9 * margin})
-    assert ask_and_report(two_finished(), {3: best_third_at_fold_one - 1.1 * margin})
+    margin = 0.5 * chance_after_one_fold
+    assert not ask_and_report(two_finished(margin_se=0.5), {3: best_third_at_fold_one - 0.9 * margin})
+    assert ask_and_report(two_finished(margin_se=0.5), {3: best_third_at_fold_one - 1.1 * margin})
     assert ask_and_report(two_finished(margin_se=1.0), {3: best_third_at_fold_one - 2.2 * margin})
-    # Without the margin (margin_se=0) the textbook rule prunes the first one too.
-    assert ask_and_report(two_finished(margin_se=0), {3: best_third_at_fold_one - 0.9 * margin})
+    # Without a margin (the default) the textbook rule prunes the first one too.
+    assert MARGIN_SE == 0
+    assert ask_and_report(two_finished(), {3: best_third_at_fold_one - 0.9 * margin})
 
 
 def test_without_two_finished_trials_to_measure_chance_a_rung_prunes_by_rank_alone():
