@@ -149,6 +149,10 @@ class RungPruner(BasePruner):
     within_family
         From one fold on, also require the best ``keep`` share of the trial's own family (see
         the module docstring); below one fold the comparison is within the family anyway.
+    margin_se
+        From one fold on, prune only a trial that trails the kept share by more than this many
+        standard errors of a paired difference of running means (``fold_noise``); 0, the
+        default, ranks by value alone.
     """
 
     def __init__(self, rungs: tuple[int, ...] = RUNG_STEPS, keep: float = KEEP, min_peers: int = MIN_PEERS,
