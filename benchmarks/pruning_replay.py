@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import argparse
 import sys
-from datetime import datetime, timedelta
 from pathlib import Path
 from typing import Any
 
@@ -41,40 +40,25 @@ RULES: dict[str, dict[str, Any]] = {
     "margin 0.5 SE": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=0.5),
     "margin 1 SE": dict(rungs=RUNG_STEPS, keep=KEEP, margin_se=1.0),
     "no margin, all families": dict(rungs=RUNG_STEPS, keep=KEEP, within_family=False, margin_se=0.0),
-    "spare cheap, 5 %": dict(rungs=RUNG_STEPS, keep=KEEP, budget_seconds=60.0, spare_share=0.05),
-    "spare cheap, 10 %": dict(rungs=RUNG_STEPS, keep=KEEP, budget_seconds=60.0, spare_share=0.10),
 }
-
-
-class _ReplayClock:
-    """The time a replayed trial would have reached: its start plus the share of its fit time done."""
-
-    def __init__(self) -> None:
-        self.now = datetime.now()
-
-    def __call__(self) -> datetime:
-        return self.now
 
 
 def replay(trials: list[optuna.trial.FrozenTrial], direction: str, rule: dict[str, Any],
            overhead: float) -> tuple[float, bool]:
     """The work ratio of one rule (``RungPruner`` arguments) on one unpruned study, and whether its best trial would be pruned."""
-    clock = _ReplayClock()
-    n_steps = STEPS_PER_FOLD * _folds(trials)
-    study = optuna.create_study(direction=direction, pruner=RungPruner(**rule, n_folds=_folds(trials), clock=clock))
+    study = optuna.create_study(direction=direction, pruner=RungPruner(**rule))
     best = study.direction == optuna.study.StudyDirection.MAXIMIZE
     best_number = (max if best else min)(trials, key=lambda t: t.value).number
+    n_steps = STEPS_PER_FOLD * _folds(trials)
     spent = used = 0.0
     best_pruned = False
     for frozen in trials:
         seconds = frozen.duration.total_seconds()
         study.enqueue_trial({"family": frozen.params.get("family")})
         trial = study.ask()
-        started = datetime.now()
         trial.suggest_categorical("family", sorted({str(t.params.get("family")) for t in trials}))
         stopped = None
         for step, value in sorted(frozen.intermediate_values.items()):
-            clock.now = started + timedelta(seconds=seconds * step / n_steps)
             trial.report(value, step)
             if trial.should_prune():
                 stopped = step

@@ -9,7 +9,6 @@ import sqlite3
 import subprocess
 import sys
 import time
-from datetime import datetime, timedelta
 from pathlib import Path
 from types import SimpleNamespace
 
@@ -307,42 +306,6 @@ def test_a_trial_of_a_weak_family_is_still_stopped_by_the_rung_all_families_shar
     assert ask_and_report(study, {3: 0.60}, family="linear")
 
 
-def test_a_cheap_family_without_a_finished_trial_is_judged_only_within_its_family():
-    # A minute's budget; the linear trials' other four folds cost a few milliseconds here.
-    study = rung_study(min_peers=2, budget_seconds=60.0, n_folds=5)
-    for value in (0.90, 0.91, 0.92):
-        ask_and_report(study, {3: value})
-    # Behind every boosting model after one fold, but it may still end ahead of them.
-    assert not ask_and_report(study, {3: 0.85, 6: 0.86, 9: 0.87, 12: 0.88}, family="linear")
-    # Its family has now finished a trial: the next linear model meets the shared rung again.
-    assert ask_and_report(study, {3: 0.89}, family="linear")
-
-
-def test_a_trial_whose_remaining_folds_would_cost_a_real_share_of_the_budget_is_not_spared():
-    # Ten seconds for one fold: the other four would take 40 s of a 60 s budget.
-    later = rung_study(min_peers=2, budget_seconds=60.0, n_folds=5,
-                       clock=lambda: datetime.now() + timedelta(seconds=10))
-    for value in (0.90, 0.91, 0.92):
-        ask_and_report(later, {3: value})
-    assert ask_and_report(later, {3: 0.85}, family="linear")
-
-
-def test_without_a_wall_clock_budget_no_family_is_spared():
-    study = rung_study(min_peers=2, budget_seconds=None)
-    for value in (0.90, 0.91, 0.92):
-        ask_and_report(study, {3: value})
-    assert ask_and_report(study, {3: 0.85}, family="linear")
-
-
-def test_a_spared_trial_is_still_halved_within_its_own_family():
-    study = rung_study(min_peers=2, budget_seconds=60.0, n_folds=5)
-    for value in (0.90, 0.91, 0.92):
-        ask_and_report(study, {3: value})
-    ask_and_report(study, {3: 0.86}, finish=False, family="linear")  # still running
-    ask_and_report(study, {3: 0.87}, finish=False, family="linear")
-    assert ask_and_report(study, {3: 0.80}, finish=False, family="linear")  # worst of three linear values
-
-
 def test_hyperband_brackets_start_pruning_at_later_rungs():
     study = rung_study(min_peers=1, brackets=3)
     for number in range(6):  # trials 0-5: two per bracket, values increasing
@@ -434,8 +397,6 @@ def test_auto_pruning_follows_the_expected_trial_count():
     assert isinstance(make_pruner("median", max_steps=5), MedianPruner)
     assert isinstance(make_pruner("halving", max_steps=5), RungPruner)
     assert make_pruner("hyperband", max_steps=5).brackets == 3
-    spares = make_pruner("halving", max_steps=3, budget_seconds=600.0)
-    assert (spares.budget_seconds, spares.n_folds) == (600.0, 3)
 
 
 def test_an_unknown_pruning_choice_is_refused_with_a_hint():

@@ -25,12 +25,6 @@ step 3 one fold, step 6 two folds.  Three things follow for a fair comparison:
   of standard errors of the difference between two trials' running means (``fold_noise``,
   measured on the finished trials).  It keeps more of the trials that end best on the folds, but
   not of those that end best on new rows, so it is off by default (see ``MARGIN_SE``).
-* a family's first trials are spared the rung all families share until one of them finishes, if
-  the rest of their folds would cost a small share of the budget (``SPARE_SHARE``): a cheap
-  family that trails another on the first fold can still end ahead of it, and without a
-  finished trial of its own it never gets the chance (``benchmarks/pruning.py``, default, seed
-  0: every linear trial stopped after one fold that boosting led, then lost on the next).  The
-  cost is what the trial's own folds took so far; an expensive family is never spared.
 
 :class:`RungPruner` is asynchronous successive halving on that basis (``halving``, and
 ``hyperband`` as three brackets of it); :class:`MedianPruner` is the median rule.  Both are
@@ -41,7 +35,6 @@ from __future__ import annotations
 
 import math
 import statistics
-from datetime import datetime
 from typing import Callable, Iterable
 
 import numpy as np
@@ -72,9 +65,6 @@ MARGIN_SE = 0.0  # how far past the kept share a trial must trail, in standard e
 # six datasets, two seeds), half a standard error stopped the search's eventual best in 2 of 12 against 7 with
 # none; run for real (benchmarks/pruning.py, seeds 0-1) it found an equal or better best CV on 5 of 6 but an
 # equal or better test score on 1 of 6, at 1.3-3.3x the configurations per minute (benchmarks/README.md)
-SPARE_SHARE = 0.05  # a family without a finished trial skips the shared rung if its remaining folds cost at most
-# this share of the budget; chosen so that a linear model's folds pass and an SVM's or kNN's on tens of thousands of
-# rows do not (benchmarks/README.md)
 FEW_TRIALS = 4  # below this many expected trials there is nothing to rank (common practice, no source); even
 # at about 10 (hpc, 60 s) halving bought 1.9x the configurations and a better best CV score in benchmarks/pruning.py
 
@@ -163,36 +153,20 @@ class RungPruner(BasePruner):
         From one fold on, prune only a trial that trails the kept share by more than this many
         standard errors of a paired difference of running means (``fold_noise``); 0, the
         default, ranks by value alone.
-    budget_seconds
-        The search's wall-clock budget; with it, a trial whose family has no finished trial yet
-        skips the shared rung while the rest of its ``n_folds`` folds, at the pace of those it has
-        done, would cost at most ``spare_share`` of the budget.  None spares nothing.
-    n_folds
-        Folds per trial, for that projection.
-    spare_share
-        See ``budget_seconds``.
-    clock
-        Gives the current time as optuna records trial starts (naive local time); tests replace it.
     """
 
     def __init__(self, rungs: tuple[int, ...] = RUNG_STEPS, keep: float = KEEP, min_peers: int = MIN_PEERS,
-                 brackets: int = 1, within_family: bool = True, margin_se: float = MARGIN_SE,
-                 budget_seconds: float | None = None, n_folds: int = 5, spare_share: float = SPARE_SHARE,
-                 clock: Callable[[], datetime] = datetime.now) -> None:
+                 brackets: int = 1, within_family: bool = True, margin_se: float = MARGIN_SE) -> None:
         if (not rungs or list(rungs) != sorted(set(rungs)) or rungs[0] < 1 or not 0.0 < keep < 1.0
-                or min_peers < 1 or brackets < 1 or margin_se < 0 or n_folds < 1 or spare_share < 0):
-            raise ValueError("increasing rungs from step 1, 0 < keep < 1, min_peers >= 1, brackets >= 1, "
-                             "margin_se >= 0, n_folds >= 1 and spare_share >= 0 are required")
+                or min_peers < 1 or brackets < 1 or margin_se < 0):
+            raise ValueError("increasing rungs from step 1, 0 < keep < 1, min_peers >= 1, brackets >= 1 "
+                             "and margin_se >= 0 are required")
         self.rungs = tuple(rungs)
         self.keep = keep
         self.min_peers = min_peers
         self.brackets = brackets
         self.within_family = within_family
         self.margin_se = margin_se
-        self.budget_seconds = budget_seconds
-        self.n_folds = n_folds
-        self.spare_share = spare_share
-        self.clock = clock
 
     def rung_of(self, step: int) -> int | None:
         """The rung index of a step, or None between rungs."""
@@ -215,7 +189,7 @@ class RungPruner(BasePruner):
         states = (TrialState.COMPLETE, TrialState.PRUNED, TrialState.RUNNING, TrialState.FAIL)
         margin = self._margin(study, step)
         values = [value, *_peer_values(study, trial, step, states, same_bracket)]
-        if self._below_share(study, value, values, margin) and not self._spared(study, trial, step):
+        if self._below_share(study, value, values, margin):
             return True
         if self.within_family and step >= STEPS_PER_FOLD:
             family = trial.params.get("family")
@@ -224,18 +198,6 @@ class RungPruner(BasePruner):
                                         and (same_bracket is None or same_bracket(t)))]
             return self._below_share(study, value, kin, margin)
         return False
-
-    def _spared(self, study: optuna.Study, trial: FrozenTrial, step: int) -> bool:
-        """Whether the trial skips the shared rung: its family has no finished trial and its other folds are cheap."""
-        folds = step // STEPS_PER_FOLD
-        if self.budget_seconds is None or folds < 1 or trial.datetime_start is None:
-            return False
-        family = trial.params.get("family")
-        if any(t.params.get("family") == family
-               for t in study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,))):
-            return False
-        spent = max(0.0, (self.clock() - trial.datetime_start).total_seconds())
-        return spent / folds * max(0, self.n_folds - folds) <= self.spare_share * self.budget_seconds
 
     def _margin(self, study: optuna.Study, step: int) -> float:
         """How far past the kept share a value at ``step`` must be to prune: chance, from one fold on."""
@@ -299,8 +261,7 @@ def choose_pruning(expected_trials: float | None) -> str:
     return "off" if expected_trials < FEW_TRIALS else "halving"
 
 
-def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: float | None = None,
-                budget_seconds: float | None = None) -> BasePruner:
+def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: float | None = None) -> BasePruner:
     """The pruner for ``kind`` (one of ``PRUNING_CHOICES``).
 
     Parameters
@@ -309,19 +270,17 @@ def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: flo
         ``auto`` chooses with :func:`choose_pruning`; ``off``, ``median``, ``halving`` or
         ``hyperband`` force a rule.
     max_steps
-        Folds per trial (the last fold is never reported, so no rung needs it); the rung rules
-        use it to project what a trial's remaining folds will cost.
+        Accepted for callers that pass it; the rules here need no step count, because steps
+        count work and the last fold is never reported.
     expected_trials
         Trials the launch is expected to finish (budget divided by a typical trial time), if known.
-    budget_seconds
-        The study's wall-clock budget, if it has one: cheap families are spared the shared rung
-        until one of their trials finishes (see :class:`RungPruner`).
 
     Raises
     ------
     InputError
         For an unknown ``kind``.
     """
+    del max_steps
     if kind not in PRUNING_CHOICES:
         raise InputError(f"unknown pruning '{kind}'", f"use one of: {', '.join(PRUNING_CHOICES)}")
     if kind == "auto":
@@ -330,7 +289,6 @@ def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: flo
         return optuna.pruners.NopPruner()
     if kind == "median":
         return MedianPruner()
-    shape = {"budget_seconds": budget_seconds, "n_folds": max_steps or 5}
     if kind == "halving":
-        return RungPruner(**shape)
-    return RungPruner(brackets=3, **shape)
+        return RungPruner()
+    return RungPruner(brackets=3)

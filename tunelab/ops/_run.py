@@ -252,7 +252,7 @@ def _optuna_study(store: Store, record: StudyRecord, *, launch_number: int, crea
     sampler = make_sampler(record.settings.get("sampler", "tpe"), (record.seed + launch_number + salt) % (2**32))
     n_folds = int(record.settings.get("n_folds", 5))
     pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
-                         expected_trials=record.settings.get("expected_trials"), budget_seconds=record.budget_wall)
+                         expected_trials=record.settings.get("expected_trials"))
     optuna.logging.set_verbosity(optuna.logging.WARNING)  # tunelab reports study creation itself
     storage = store.optuna_storage()
     if create:
