@@ -62,6 +62,14 @@ def _trials(store: Path, state: str) -> set[int]:
     return {r[0] for r in _query(store, "select number from trials where state = ?", (state,))}
 
 
+def _trials_or_none(store: Path, state: str) -> set[int]:
+    """``_trials``, or nothing while a writer holds the store."""
+    try:
+        return _trials(store, state)
+    except sqlite3.OperationalError:
+        return set()
+
+
 def crash_and_resume(data: Path, store: Path, *, min_complete: int, extra_delay: float, pruning: str = "median",
                      trials_cap: int = 12, timeout: float = 120.0) -> CrashReport:
     """Run until ``min_complete`` trials finished and one is running, wait ``extra_delay``, SIGKILL, resume."""
@@ -85,11 +93,15 @@ def crash_and_resume(data: Path, store: Path, *, min_complete: int, extra_delay:
             if len(done) >= min_complete and running:
                 break
         time.sleep(extra_delay)
-        completed_before = _trials(store, "COMPLETE")
-        running_at_kill = sorted(_trials(store, "RUNNING"))
+        # The trial seen running may have ended during the delay: kill as soon as one runs again.
+        while time.monotonic() < deadline and not _trials_or_none(store, "RUNNING"):
+            time.sleep(0.005)
         proc.send_signal(signal.SIGKILL)
         killed_at = time.time()
         proc.wait(timeout=30)
+        # A killed process writes nothing more: the store now shows exactly what the kill interrupted.
+        completed_before = _trials(store, "COMPLETE")
+        running_at_kill = sorted(_trials(store, "RUNNING"))
     finally:
         if proc.poll() is None:
             proc.kill()
