@@ -62,10 +62,12 @@ def _trials(store: Path, state: str) -> set[int]:
     return {r[0] for r in _query(store, "select number from trials where state = ?", (state,))}
 
 
-def _trials_or_none(store: Path, state: str) -> set[int]:
-    """``_trials``, or nothing while a writer holds the store."""
+def _owned_running(store: Path) -> set[int]:
+    """Running trials that carry their launch (a trial is underway once it does), or nothing while a writer holds the store."""
     try:
-        return _trials(store, state)
+        return {r[0] for r in _query(
+            store, "select t.number from trials t join trial_user_attributes a on a.trial_id = t.trial_id "
+                   "where t.state = 'RUNNING' and a.key = 'tl_launch'")}
     except sqlite3.OperationalError:
         return set()
 
@@ -93,8 +95,9 @@ def crash_and_resume(data: Path, store: Path, *, min_complete: int, extra_delay:
             if len(done) >= min_complete and running:
                 break
         time.sleep(extra_delay)
-        # The trial seen running may have ended during the delay: kill as soon as one runs again.
-        while time.monotonic() < deadline and not _trials_or_none(store, "RUNNING"):
+        # The trial seen running may have ended during the delay: kill as soon as one runs again
+        # (and carries its launch: a kill between asking for a trial and tagging it is another case).
+        while time.monotonic() < deadline and not _owned_running(store):
             time.sleep(0.005)
         proc.send_signal(signal.SIGKILL)
         killed_at = time.time()
