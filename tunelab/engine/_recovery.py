@@ -31,16 +31,20 @@ def recover(store: Store, record: StudyRecord, study: Any, *, now: float, stale_
 
     Safe with several workers at once: a dead launch is claimed by one worker (a conditional
     update), and each interrupted config is re-queued once (a unique row in ``tl_requeue``).
+    A running trial without an owner (written by a version that tagged it after the claim) is an
+    orphan at once when no other launch is live, else once it is older than ``stale_after``:
+    a live worker may be between its claim and its tag.
     """
     report = Recovery(crashed_launches=store.mark_dead_launches(record.id, now=now, stale_after=stale_after))
     live = {ln.id for ln in store.launches(record.id) if ln.state == "running"}
     if own_launch is not None:
         live.add(own_launch)
+    others_live = live - {own_launch}
     storage = study._storage
+    here = set(storage.running_here()) if hasattr(storage, "running_here") else set()
     for trial in study.get_trials(deepcopy=False, states=(TrialState.RUNNING,)):
         owner = trial.user_attrs.get(LAUNCH_ATTR)
-        orphan = owner is None and trial.datetime_start is not None and \
-            now - trial.datetime_start.timestamp() > stale_after
+        orphan = owner is None and trial.number not in here and (not others_live or _older_than(trial, now, stale_after))
         if owner in report.crashed_launches or (owner is not None and owner not in live) or orphan:
             try:
                 storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, INTERRUPTED)
@@ -56,6 +60,10 @@ def recover(store: Store, record: StudyRecord, study: Any, *, now: float, stale_
             study.enqueue_trial(trial.params, user_attrs={RETRY_ATTR: trial.number})
             report.requeued.append(trial.number)
     return report
+
+
+def _older_than(trial: Any, now: float, seconds: float) -> bool:
+    return trial.datetime_start is not None and now - trial.datetime_start.timestamp() > seconds
 
 
 def trial_state(trial: Any) -> str:

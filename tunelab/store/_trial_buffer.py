@@ -29,7 +29,7 @@ from optuna.storages._cached_storage import _CachedStorage
 from optuna.storages._rdb import models
 from optuna.storages._rdb.storage import _create_scoped_session
 from optuna.trial import FrozenTrial, TrialState
-from sqlalchemy import insert, update
+from sqlalchemy import insert, select, update
 
 
 class LocalTrialStorage(_CachedStorage):
@@ -79,13 +79,22 @@ class LocalTrialStorage(_CachedStorage):
         Why: optuna's claim reads the state and then writes it; SQLite's Python driver begins
         the transaction at the write, so two workers could both read WAITING and both run the
         config (seen as duplicate parameter and attribute rows, and a worker dying on them).
+        The owner (``stamp``) is written in the same transaction, so no crash can leave a
+        claimed trial running without a launch that recovery can find dead.
         """
         table = models.TrialModel.__table__
         with _create_scoped_session(self._backend.scoped_session) as session:
             taken = session.execute(update(table)
                                     .where(table.c.trial_id == trial_id, table.c.state == TrialState.WAITING)
                                     .values(state=TrialState.RUNNING, datetime_start=datetime.now()))
-            return taken.rowcount == 1
+            if taken.rowcount != 1:
+                return False
+            if self.stamp:
+                attrs = models.TrialUserAttributeModel.__table__
+                have = {key for (key,) in session.execute(
+                    select(attrs.c.key).where(attrs.c.trial_id == trial_id, attrs.c.key.in_(list(self.stamp))))}
+                _write_batch(session, trial_id, _Batch(user=dict(self.stamp)), {("user", key) for key in have})
+            return True
 
     def running_here(self) -> list[int]:
         """Numbers of the trials this process created or claimed and has not finished."""
