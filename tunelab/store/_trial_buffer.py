@@ -6,7 +6,8 @@ thousand trials that is most of the engine's cost per trial.  This process is th
 of a trial it runs, so it can keep that trial in memory and write it at three points, each one
 committed transaction:
 
-- creation, with the attributes that say which launch and phase own it (``stamp``);
+- creation, or the claim of a queued trial, with the attributes that say which launch and phase
+  own it (``stamp``);
 - ``flush()``, which the engine calls once the config is sampled and before the model is fitted,
   so a crash during the fit leaves the config in the store to be re-queued;
 - the final state, together with everything recorded since the flush.
