@@ -72,6 +72,19 @@ def _owned_running(store: Path) -> set[int]:
         return set()
 
 
+def _wait_stopped(pid: int, timeout: float = 5.0) -> None:
+    """Return once the process has actually stopped (SIGSTOP is delivered asynchronously; Linux /proc)."""
+    end = time.monotonic() + timeout
+    while time.monotonic() < end:
+        try:
+            with open(f"/proc/{pid}/stat") as f:
+                if f.read().rsplit(")", 1)[1].split()[0] in ("T", "t"):
+                    return
+        except OSError:
+            return
+        time.sleep(0.001)
+
+
 def crash_and_resume(data: Path, store: Path, *, min_complete: int, extra_delay: float, pruning: str = "median",
                      trials_cap: int = 12, timeout: float = 120.0) -> CrashReport:
     """Run until ``min_complete`` trials finished and one is running, wait ``extra_delay``, SIGKILL, resume."""
@@ -95,9 +108,15 @@ def crash_and_resume(data: Path, store: Path, *, min_complete: int, extra_delay:
             if len(done) >= min_complete and running:
                 break
         time.sleep(extra_delay)
-        # The trial seen running may have ended during the delay: kill as soon as one runs again
-        # (and carries its launch: a kill between asking for a trial and tagging it is another case).
-        while time.monotonic() < deadline and not _owned_running(store):
+        # The trial seen running may have ended during the delay, and one seen running can end
+        # between the look and the kill: freeze the run, look, and kill only while a trial that
+        # carries its launch is running (only the frozen process writes the store), else thaw it.
+        while time.monotonic() < deadline:
+            proc.send_signal(signal.SIGSTOP)
+            _wait_stopped(proc.pid)
+            if _owned_running(store):
+                break
+            proc.send_signal(signal.SIGCONT)
             time.sleep(0.005)
         proc.send_signal(signal.SIGKILL)
         killed_at = time.time()
