@@ -10,7 +10,7 @@ import sys
 import threading
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Optional
+from typing import Any, List, Optional
 
 import typer
 
@@ -146,6 +146,10 @@ def run(
                                 help="auto, off, median, halving or hyperband. auto counts the trials the budget "
                                      "should finish: off under 4, successive halving from there."),
     jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
+    learn: Optional[List[str]] = typer.Option(None, "--learn-from", metavar="STUDY",
+                                              help="An earlier study in the same store (same kind of task): its "
+                                                   "best 3 configurations run first, moved into this data's ranges. "
+                                                   "Repeat to learn from several."),
     seed: int = SeedOpt,
     store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
@@ -154,6 +158,8 @@ def run(
     """Profile a data file and search it for the best pipeline within a budget.
 
     Example: tunelab run sales.csv --target churned --budget 10m
+
+    Start from what worked on earlier data: tunelab run q4.csv --target churned --learn-from q3
     """
     from tunelab.engine import Budget, parse_duration
     from tunelab.ops import RunRequest, run_study
@@ -161,7 +167,8 @@ def run(
     wall = parse_duration(budget) if budget else (None if trials else 600.0)
     box = Budget(wall, parse_duration(cpu_budget) if cpu_budget else None, trials)
     request = RunRequest(data=data, target=target, budget=box, store=store, study=study, task=task, metric=metric,
-                         seed=seed, space_file=space, pruning=pruning, jobs=jobs)
+                         seed=seed, space_file=space, pruning=pruning, jobs=jobs,
+                         learn_from=tuple(learn or ()))
     announce, progress, close = _progress_hooks({}, quiet or json_out)
     try:
         result = run_study(request, announce=announce, on_progress=progress, settings=_settings(ctx))

@@ -28,6 +28,7 @@ from tunelab.engine import (
     settled_config,
 )
 from tunelab.errors import InputError, StudyStateError
+from tunelab.ops._learn import LEARNED_ATTR, learn_from
 from tunelab.ops._profile import built_space
 from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
@@ -54,6 +55,7 @@ class RunRequest:
     space_file: Path | None = None
     pruning: str = "auto"
     jobs: int = 1
+    learn_from: tuple[str, ...] = ()  # earlier studies in the same store whose best configs run first
 
 
 @dataclass
@@ -110,6 +112,7 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         if request.study and request.study in store.study_names():
             raise InputError(f"study '{request.study}' already exists in {store.location.display()}",
                              f"continue it with `tunelab resume {request.study}`, or pick another --study name")
+        learned = learn_from(store, list(request.learn_from), space, dataset.task)
         record = store.create_study(
             name=name, now=clock.now(), data_path=str(request.data.resolve()),
             data_sha256=file_sha256(request.data), fingerprint=dataset.fingerprint, target=request.target,
@@ -121,12 +124,14 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
             space_json=space.to_json(), space_reason=space.family_reason or "initial search space",
         )
         study = _optuna_study(store, record, launch_number=0, create=True)
+        for source, config in learned.configs:
+            study.enqueue_trial(config, user_attrs={"tl_warm_start": True, LEARNED_ATTR: source})
         for config in space.warm_starts:
             study.enqueue_trial(dict(config), user_attrs={"tl_warm_start": True})
         return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
                        clock=clock, announce=announce,
                        on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
-                       jobs=request.jobs, notes=dataset.notes)
+                       jobs=request.jobs, notes=[*dataset.notes, *learned.notes])
 
 
 def resume_study(name: str, *, store: str | None = None, extend_seconds: float = 0.0, extend_trials: int = 0,
