@@ -13,6 +13,7 @@ beside the two classification metrics.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -71,9 +72,20 @@ def score_predictions(task: str, y_true: pd.Series, predictions: Predictions) ->
     return result
 
 
+def score_prediction_file(task: str, target: str, test: str | Path, predictions: str | Path) -> dict[str, float]:
+    """Scores of a ``tunelab predict`` output file (``prediction`` and ``proba_<class>`` columns) on the test rows."""
+    truth = pd.read_csv(test)[target]
+    frame = pd.read_csv(predictions)
+    proba = None
+    if task != "regression":
+        cols = [c for c in frame.columns if c.startswith("proba_")]
+        proba = frame[cols].rename(columns=lambda c: c[len("proba_"):])
+    return score_predictions(task, truth, Predictions(frame["prediction"].to_numpy(), proba))
+
+
 def orient(metric: str, value: float) -> float:
     """Return ``value`` turned so that higher is better (losses are negated)."""
     return value if HIGHER_IS_BETTER[metric] else -value
 
 
-__all__ = ["HIGHER_IS_BETTER", "PRIMARY_METRIC", "Predictions", "orient", "score_predictions"]
+__all__ = ["HIGHER_IS_BETTER", "PRIMARY_METRIC", "Predictions", "orient", "score_prediction_file", "score_predictions"]

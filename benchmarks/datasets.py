@@ -244,6 +244,14 @@ def get(name: str) -> DatasetSpec:
     raise KeyError(f"unknown dataset {name!r}; choose from {', '.join(names())}")
 
 
+def chosen(text: str) -> list[str]:
+    """The datasets a ``--datasets`` option names (comma-separated, or ``all``); a bad name fails early."""
+    picked = names() if text == "all" else [n.strip() for n in text.split(",") if n.strip()]
+    for name in picked:
+        get(name)
+    return picked
+
+
 def load(name: str) -> pd.DataFrame:
     """Load a dataset as one frame, target included, subsampled to its ``max_rows``.
 
@@ -294,6 +302,7 @@ def write_split(name: str, directory: str | Path, seed: int = 0) -> tuple[Path, 
 
 __all__ = [
     "DatasetSpec",
+    "chosen",
     "TEST_FRACTION",
     "get",
     "load",

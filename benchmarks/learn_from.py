@@ -40,7 +40,8 @@ if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
 from benchmarks import datasets  # noqa: E402
-from benchmarks._scoring import PRIMARY_METRIC, Predictions, orient, score_predictions  # noqa: E402
+from benchmarks._results import write_results  # noqa: E402
+from benchmarks._scoring import PRIMARY_METRIC, orient, score_prediction_file  # noqa: E402
 
 DEFAULT_DATASETS = ("titanic", "credit", "default", "hpc", "wage", "diamonds")
 ARMS = ("cold", "learned")
@@ -50,17 +51,6 @@ def _halves(train: pd.DataFrame, spec: datasets.DatasetSpec, seed: int) -> tuple
     stratify = train[spec.target] if spec.is_classification else None
     earlier, later = train_test_split(train, test_size=0.5, random_state=seed, stratify=stratify)
     return earlier, later
-
-
-def _score(spec: datasets.DatasetSpec, test: Path, predictions: Path) -> float:
-    truth = pd.read_csv(test)[spec.target]
-    frame = pd.read_csv(predictions)
-    proba = None
-    if spec.is_classification:
-        cols = [c for c in frame.columns if c.startswith("proba_")]
-        proba = frame[cols].rename(columns=lambda c: c[len("proba_"):])
-    scores = score_predictions(spec.task, truth, Predictions(frame["prediction"].to_numpy(), proba))
-    return scores[PRIMARY_METRIC[spec.task]]
 
 
 def _arm(arm: str, later: Path, test: Path, spec: datasets.DatasetSpec, budget: float, seed: int, store: str,
@@ -80,7 +70,8 @@ def _arm(arm: str, later: Path, test: Path, spec: datasets.DatasetSpec, budget: 
         model = work / f"model-{arm}.zip"
         export_model(arm, model, store=store)
         predict_file(model, test, work / f"pred-{arm}.csv")
-        out["score"] = _score(spec, test, work / f"pred-{arm}.csv")
+        out["score"] = score_prediction_file(spec.task, spec.target, test, work / f"pred-{arm}.csv")[
+            PRIMARY_METRIC[spec.task]]
     except Exception as exc:  # one failed arm is a result (a loss), not the end of the benchmark
         out["error"] = f"{type(exc).__name__}: {exc}".splitlines()[0]
     return out
@@ -183,29 +174,20 @@ def main(argv: list[str] | None = None) -> int:
         report([row for path in args.combine for row in json.loads(path.read_text())["rows"]])
         return 0
     budget, earlier_budget = parse_duration(args.budget), parse_duration(args.earlier_budget)
-    seeds = [int(s) for s in args.seeds.split(",") if s.strip()]
-    names = datasets.names() if args.datasets == "all" else [n.strip() for n in args.datasets.split(",") if n.strip()]
-    for name in names:
-        datasets.get(name)  # fail early on a bad name
+    seeds, names = [int(s) for s in args.seeds.split(",") if s.strip()], datasets.chosen(args.datasets)
     warnings.simplefilter("ignore")
     started = datetime.now(timezone.utc)
     rows = []
-    for seed in seeds:
-        for name in names:
-            t0 = time.perf_counter()
-            rows.append(compare(name, budget, earlier_budget, seed))
-            arms = rows[-1]["arms"]
-            print(f"[{name} seed {seed}] cold {arms['cold']['score']}  learned {arms['learned']['score']}  "
-                  f"({time.perf_counter() - t0:.0f} s)", flush=True)
+    for seed, name in ((seed, name) for seed in seeds for name in names):
+        t0 = time.perf_counter()
+        rows.append(compare(name, budget, earlier_budget, seed))
+        cold, learned = (rows[-1]["arms"][arm]["score"] for arm in ARMS)
+        print(f"[{name} seed {seed}] cold {cold}  learned {learned}  ({time.perf_counter() - t0:.0f} s)", flush=True)
     print()
     summary = report(rows)
-    out_dir = Path(args.results_dir)
-    out_dir.mkdir(parents=True, exist_ok=True)
-    out = out_dir / f"learn_from-{args.budget}-seed{'-'.join(map(str, seeds))}-{started.strftime('%Y%m%dT%H%M%SZ')}.json"
-    out.write_text(json.dumps({"budget": args.budget, "earlier_budget": args.earlier_budget, "seeds": seeds,
-                               "started": started.isoformat(), "rows": rows, "summary": summary}, indent=2,
-                              default=str), encoding="utf-8")
-    print(f"\nresults: {out}")
+    write_results(args.results_dir, f"learn_from-{args.budget}-seed{'-'.join(map(str, seeds))}", started,
+                  {"budget": args.budget, "earlier_budget": args.earlier_budget, "seeds": seeds, "rows": rows,
+                   "summary": summary})
     return 0
 
 

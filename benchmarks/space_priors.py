@@ -37,14 +37,14 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
 
-import pandas as pd
 
 ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
 from benchmarks import datasets  # noqa: E402
-from benchmarks._scoring import PRIMARY_METRIC, Predictions, orient, score_predictions  # noqa: E402
+from benchmarks._results import write_results  # noqa: E402
+from benchmarks._scoring import PRIMARY_METRIC, orient, score_prediction_file  # noqa: E402
 
 DEFAULT_DATASETS = ("breast_cancer", "titanic", "credit", "default", "digits", "chile", "hpc", "wage", "ames",
                     "diamonds")
@@ -107,21 +107,11 @@ def run_arm(arm: str, train: Path, test: Path, spec: datasets.DatasetSpec, budge
         result.best_family = exported.family
         predictions = work / f"pred-{arm}.csv"
         predict_file(model, test, predictions)
-        result.scores = _score(spec, test, predictions)
+        result.scores = score_prediction_file(spec.task, spec.target, test, predictions)
         result.score = result.scores[PRIMARY_METRIC[spec.task]]
     except Exception as exc:  # one failed arm is a result (a loss), not the end of the benchmark
         result.error = f"{type(exc).__name__}: {exc}".splitlines()[0]
     return result
-
-
-def _score(spec: datasets.DatasetSpec, test: Path, predictions: Path) -> dict[str, float]:
-    truth = pd.read_csv(test)[spec.target]
-    frame = pd.read_csv(predictions)
-    proba = None
-    if spec.is_classification:
-        cols = [c for c in frame.columns if c.startswith("proba_")]
-        proba = frame[cols].rename(columns=lambda c: c[len("proba_"):])
-    return score_predictions(spec.task, truth, Predictions(frame["prediction"].to_numpy(), proba))
 
 
 def compare(name: str, budget: float, seed: int, keep: Path | None = None) -> dict[str, Any]:
@@ -270,9 +260,7 @@ def main(argv: list[str] | None = None) -> int:
         return 0
     budget = parse_duration(args.budget)
     seeds = [int(s) for s in args.seeds.split(",") if s.strip()]
-    names = datasets.names() if args.datasets == "all" else [n.strip() for n in args.datasets.split(",") if n.strip()]
-    for name in names:
-        datasets.get(name)  # fail early on a bad name
+    names = datasets.chosen(args.datasets)
     warnings.simplefilter("ignore")
     started = datetime.now(timezone.utc)
     rows = []
@@ -285,15 +273,8 @@ def main(argv: list[str] | None = None) -> int:
                   f"({time.perf_counter() - t0:.0f} s)", flush=True)
     print()
     summary = report(rows)
-    out_dir = Path(args.results_dir)
-    out_dir.mkdir(parents=True, exist_ok=True)
-    stamp = started.strftime("%Y%m%dT%H%M%SZ")
-    label = "-".join(map(str, seeds))
-    out = out_dir / f"space_priors-{args.budget}-seed{label}-{stamp}.json"
-    out.write_text(json.dumps({"budget": args.budget, "budget_seconds": budget, "seeds": seeds,
-                               "started": started.isoformat(), "rows": rows, "summary": summary}, indent=2,
-                              default=str), encoding="utf-8")
-    print(f"\nresults: {out}")
+    write_results(args.results_dir, f"space_priors-{args.budget}-seed{'-'.join(map(str, seeds))}", started,
+                  {"budget": args.budget, "budget_seconds": budget, "seeds": seeds, "rows": rows, "summary": summary})
     return 0
 
 

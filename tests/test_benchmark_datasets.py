@@ -21,7 +21,7 @@ if str(REPO) not in sys.path:  # benchmarks/ is a folder of the repository, not 
     sys.path.insert(0, str(REPO))
 
 from benchmarks import datasets  # noqa: E402
-from benchmarks._scoring import Predictions, score_predictions  # noqa: E402
+from benchmarks._scoring import Predictions, score_prediction_file, score_predictions  # noqa: E402
 from benchmarks._summary import (  # noqa: E402
     friedman_p_value,
     mean_ranks,
@@ -120,6 +120,13 @@ def test_unknown_dataset_name_lists_the_known_ones() -> None:
         datasets.get("no_such_set")
 
 
+def test_a_datasets_option_names_some_or_all_and_fails_early_on_a_bad_name() -> None:
+    assert datasets.chosen(" wage, titanic ,") == ["wage", "titanic"]
+    assert datasets.chosen("all") == datasets.names()
+    with pytest.raises(KeyError, match="no_such_set"):
+        datasets.chosen("wage,no_such_set")
+
+
 # ------------------------------------------------------------------- the split
 
 
@@ -187,6 +194,16 @@ def test_regression_rmse_of_a_constant_offset_is_the_offset() -> None:
     assert score_predictions("regression", y, Predictions(np.array([3.0, 4.0, 5.0])))[
         "rmse"
     ] == pytest.approx(2.0)
+
+
+def test_a_predict_output_file_is_scored_by_its_proba_columns(tmp_path: Path) -> None:
+    test, preds = tmp_path / "test.csv", tmp_path / "preds.csv"
+    test.write_text("x,y\n1,no\n2,yes\n3,yes\n")
+    preds.write_text("prediction,proba_no,proba_yes\nno,0.8,0.2\nyes,0.3,0.7\nno,0.6,0.4\n")
+    scores = score_prediction_file("binary", "y", test, preds)
+    # sklearn.metrics.roc_auc_score: the "no" row (0.2) ranks below both "yes" rows (0.7, 0.4)
+    assert scores["roc_auc"] == pytest.approx(1.0)
+    assert scores["accuracy"] == pytest.approx(2 / 3)
 
 
 def test_friedman_p_value_matches_the_closed_form_for_a_fixed_order() -> None:
