@@ -222,3 +222,17 @@ def test_profile_refuses_a_missing_target_and_a_bad_budget(cli, small_csv):
     assert "is not in the data" in one_line_error(cli("profile", str(small_csv), "--target", "nope"))
     assert "budget" in one_line_error(cli("profile", str(small_csv), "--target", "y", "--budget", "0"))
     assert "rmse" in one_line_error(cli("profile", str(small_csv), "--target", "y", "--metric", "rmse"))
+
+
+def test_a_space_file_offering_the_gamma_loss_for_a_target_below_zero_is_refused(tmp_path, cli, store_path):
+    from tunelab.space import FamilySpec, ParamSpec, SpaceSpec
+
+    data = tmp_path / "signed.csv"
+    pd.DataFrame({"x": range(60), "y": [v - 30.0 for v in range(60)]}).to_csv(data, index=False)
+    space = tmp_path / "space.json"
+    space.write_text(SpaceSpec(families={"hist_gb": FamilySpec({"loss": ParamSpec(
+        "categorical", choices=("gamma", "squared_error"))})}).to_json(), encoding="utf-8")
+    line = one_line_error(cli("run", str(data), "--target", "y", "--trials", "1", "--space", str(space),
+                              "--store", str(store_path)))
+    assert "gamma" in line and "above zero" in line and "drop that choice" in line
+    assert not store_path.exists()  # refused before anything is written

@@ -47,6 +47,13 @@ def _frame(n: int, p: int = 5, *, seed: int = 0, skewed: bool = False, minority:
     return frame
 
 
+def _positive_skewed_target(n: int) -> pd.DataFrame:
+    """A price-like target: above zero, effects multiply, long right tail (lognormal, skewness near 2)."""
+    frame = _frame(n, task="regression", noise=0.0)
+    frame["y"] = np.exp(0.8 * frame["y"] + 0.3 * np.random.default_rng(1).normal(size=n))
+    return frame
+
+
 def _with_costs(meta: MetaFeatures, seconds: Mapping[str, float]) -> MetaFeatures:
     """The same meta-features with every cost probe replaced by a fixed seconds-per-fit figure."""
     probes = {f: CostProbe(f, "fixed for the test", 100, s, s, SCALING_RULES[f]) for f, s in seconds.items()}
@@ -71,6 +78,7 @@ def _data(kind: str) -> tuple[Dataset, MetaFeatures]:
         "tiny": lambda: _frame(200),
         "noisy": lambda: _frame(2000, noise=3.0),
         "clean": lambda: _frame(2000, noise=0.05),
+        "positive_skewed_target": lambda: _positive_skewed_target(1000),
     }
     if kind == "digits":
         # scikit-learn's bundled handwritten digits (sklearn.datasets.load_digits): 1,797 rows,
@@ -282,6 +290,31 @@ def test_text_and_datetime_columns_get_their_preprocessing() -> None:
     assert "6.0" in space.params["prep.text_features"].reason  # mean words per value of the text column
     text = "\n".join(space.notes)
     assert "datetime" in text and "one-hot" in text and "target-encoded" in text
+
+
+# --------------------------------------------------------------------------- the boosting loss
+
+
+def test_gamma_deviance_leads_for_a_positive_right_skewed_regression_target() -> None:
+    loss = _space("positive_skewed_target").families["hist_gb"].params["loss"]
+    assert loss.choices == ("gamma", "squared_error")  # squared error stays a choice: CV decides
+    assert "right-skewed" in loss.reason and "log link" in loss.reason
+    assert all(w["hist_gb.loss"] == "gamma" for w in _space("positive_skewed_target").warm_starts
+               if w["family"] == "hist_gb")
+
+
+def test_squared_error_alone_where_the_target_can_be_zero_or_negative_or_is_a_class() -> None:
+    assert "loss" not in _space("regression_small").families["hist_gb"].params  # normal target: below zero too
+    assert "loss" not in _space("skewed").families["hist_gb"].params  # classification
+
+
+def test_a_gamma_config_builds_a_boosting_model_with_the_log_link() -> None:
+    dataset, _ = _data("positive_skewed_target")
+    config = {"family": "hist_gb", "hist_gb.loss": "gamma", "hist_gb.max_iter": 20}
+    pipeline = build_pipeline(config, dataset.roles, {}, "regression")
+    pipeline.fit(dataset.X, dataset.y)
+    assert pipeline.named_steps["model"].loss == "gamma"
+    assert (pipeline.predict(dataset.X) > 0).all()  # exp of the link: predictions stay above zero
 
 
 # --------------------------------------------------------------------------- the MLP ladder

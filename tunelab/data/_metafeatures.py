@@ -563,7 +563,7 @@ def _statistical_features(
     A = _numeric_matrix(X, _columns(col_roles, "numeric"), rows)
     skews, kurts = [], []
     for j in range(A.shape[1]):
-        skew, kurt = _type3_moments(A[:, j])
+        skew, kurt = type3_moments(A[:, j])
         if skew is not None and kurt is not None:
             skews.append(abs(skew))
             kurts.append(kurt)
@@ -578,7 +578,7 @@ def _statistical_features(
     )
 
 
-def _type3_moments(values: np.ndarray) -> tuple[float | None, float | None]:
+def type3_moments(values: np.ndarray) -> tuple[float | None, float | None]:
     """Skewness ``m3 / s**3`` and excess kurtosis ``m4 / s**4 - 3`` with ``s`` at ``ddof=1``.
 
     These are the "type 3" estimators of R's e1071 and pymfe's defaults (b1 and b2 - 3 in

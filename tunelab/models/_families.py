@@ -65,7 +65,7 @@ def _hist_gb(p: Mapping[str, Any], task: str, seed: int, threads: int) -> Any:
         early_stopping=False, random_state=seed,
     )
     if task == "regression":
-        return HistGradientBoostingRegressor(**kwargs)
+        return HistGradientBoostingRegressor(loss=p.get("loss", "squared_error"), **kwargs)
     return HistGradientBoostingClassifier(class_weight=p.get("class_weight"), **kwargs)
 
 

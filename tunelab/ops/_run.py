@@ -383,3 +383,20 @@ def _check_space_fits(space: SpaceSpec, dataset: Dataset) -> None:
     if unknown:
         raise InputError(f"search space names unknown families: {', '.join(unknown)}",
                          f"families are: {', '.join(FAMILIES)}")
+    _check_boosting_loss(space, dataset)
+
+
+def _check_boosting_loss(space: SpaceSpec, dataset: Dataset) -> None:
+    """A log-link boosting loss needs a target above zero (gamma) or not below it (poisson)."""
+    boosting = space.families.get("hist_gb")
+    loss = boosting.params.get("loss") if boosting is not None else None
+    if dataset.task != "regression" or loss is None or not len(dataset.y):
+        return
+    offered = set(loss.choices or ()) | {loss.value}
+    low = float(min(dataset.y))
+    needs = [name for name, ok in (("gamma", low > 0), ("poisson", low >= 0)) if name in offered and not ok]
+    if needs:
+        above = "above zero" if "gamma" in needs else "of zero or more"
+        raise InputError(f"search space offers hist_gb.loss {'/'.join(needs)}, which needs a target {above}, "
+                         f"but '{dataset.target}' goes down to {low:g}",
+                         "drop that choice from the space file, or let tunelab build the space")

@@ -29,7 +29,7 @@ import numpy as np
 
 from tunelab.data import Dataset
 from tunelab.space._transform_probe import TransformProbe
-from tunelab.data._metafeatures import MetaFeatures, scaled_cost
+from tunelab.data._metafeatures import MetaFeatures, scaled_cost, type3_moments
 from tunelab.models._families import MLP_RUNGS
 from tunelab.models._row_cap import ROWS_KEY
 from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
@@ -120,6 +120,7 @@ class _Facts:
     landmarks: Mapping[str, float]
     metric: str
     transform_probe: TransformProbe | None = None
+    target_skew: float | None = None  # regression only, and only for a strictly positive target
 
     @property
     def signal(self) -> float | None:
@@ -179,7 +180,19 @@ def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, m
         budget_given=bool(budget_seconds), skew=meta.statistical.mean_abs_skewness,
         imbalance=meta.information.imbalance_ratio, n_numeric=meta.simple.n_numeric,
         landmarks=landmarks, metric=metric or DEFAULT_METRIC[dataset.task], transform_probe=transform_probe,
+        target_skew=_positive_target_skew(dataset),
     )
+
+
+def _positive_target_skew(dataset: Dataset) -> float | None:
+    """The target's skewness when it is a regression target above zero everywhere, else ``None``."""
+    if dataset.task != "regression" or not len(dataset.y):
+        return None
+    y = np.asarray(dataset.y, dtype=float)
+    if not np.all(np.isfinite(y)) or y.min() <= 0:
+        return None
+    skew, _ = type3_moments(y)
+    return skew
 
 
 def _trial_seconds(family: str, facts: _Facts, meta: MetaFeatures, work: float = 1.0) -> float | None:
@@ -387,9 +400,22 @@ def _hist_gb(facts: _Facts, meta: MetaFeatures) -> _Decision:
                                                  f"for {'many' if feat_lo < 0.5 else 'few'} columns"), 1.0)
     if facts.task != "regression":
         _class_weight(d, facts)
+    _boosting_loss(d, facts)
     other = _HIST_GB_PRIORS["standard" if facts.noisy else "regularised"]
     d.second = {**d.centre, **{k: _centre(d.params[k], v) for k, v in other.items()}}
     return d
+
+
+def _boosting_loss(d: _Decision, facts: _Facts) -> None:
+    # A positive target with a long right tail (prices, wages, amounts) varies on a multiplicative
+    # scale: the gamma deviance with its log link fits that scale, and predicts the mean, which is
+    # what RMSE scores (McCullagh and Nelder 1989, Generalized Linear Models, 2nd ed., ch. 8: gamma
+    # models for positive data whose spread grows with the mean; from memory).  Squared error stays
+    # a choice, so cross-validation decides; gamma goes first, into the warm starts.
+    if facts.target_skew is not None and facts.target_skew > _SKEW_HIGH:
+        _put(d, "loss", _cat(("gamma", "squared_error"),
+                             f"target above zero and right-skewed (skewness {facts.target_skew:.1f} > {_SKEW_HIGH:g}): "
+                             "gamma deviance (log link) first, squared error as the other choice"))
 
 
 def _on_fewer_rows(decide: Any, facts: _Facts, meta: MetaFeatures) -> _Decision:
