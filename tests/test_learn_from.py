@@ -77,6 +77,21 @@ def test_the_earlier_best_configs_run_first_and_are_marked_with_their_source(two
     assert [t.number for t in learned] == list(range(len(learned)))  # queued ahead of everything else
     assert learned[0].params.get("family", "hist_gb") == earlier.best_trial.params.get("family", "hist_gb")
 
+    from tunelab.ops._status import study_detail
+
+    shown = {t.number: t.origin for t in study_detail("q4", str(store_path), top=10).top}
+    assert {shown[t.number] for t in learned if t.number in shown} <= {"from q3"}
+    assert "from q3" in shown.values()  # status says which configs came from the earlier study
+
+
+def test_status_tells_carried_prior_retried_and_searched_configs_apart() -> None:
+    from tunelab.ops._status import trial_origin
+
+    assert trial_origin({"tl_warm_start": True, "tl_learned_from": "q3"}) == "from q3"
+    assert trial_origin({"tl_warm_start": True}) == "prior"
+    assert trial_origin({"tl_retry_of": 7}) == "retry of 7"
+    assert trial_origin({}) == "search"
+
 
 def test_learning_from_a_study_that_is_not_there_is_a_one_line_error(cli, small_csv, store_path) -> None:
     result = cli("run", str(small_csv), "--target", "y", "--trials", "2", "--store", str(store_path),

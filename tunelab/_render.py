@@ -121,10 +121,10 @@ def print_detail(d: Any) -> None:
     if d.top:
         table = Table(title=f"top {len(d.top)} trials", title_justify="left", header_style="bold")
         for name, justify in (("trial", "right"), (line.metric, "right"), ("± folds", "right"),
-                              ("family", "left"), ("seconds", "right")):
+                              ("family", "left"), ("seconds", "right"), ("origin", "left")):
             table.add_column(name, justify=justify)  # type: ignore[arg-type]
         for t in d.top:
-            table.add_row(str(t.number), fmt(t.value), fmt(t.fold_std), t.family, fmt(t.duration, 1))
+            table.add_row(str(t.number), fmt(t.value), fmt(t.fold_std), t.family, fmt(t.duration, 1), t.origin)
         out.print(table)
     if len(d.phases) > 1:
         table = Table(title="phases", title_justify="left", header_style="bold")

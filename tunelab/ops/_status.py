@@ -7,6 +7,8 @@ from typing import Any
 
 from tunelab.engine import ROUNDS_ATTR, settled_config, trial_state
 from tunelab.engine._pruning import choose_pruning
+from tunelab.engine._recovery import RETRY_ATTR
+from tunelab.ops._learn import LEARNED_ATTR
 from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord
 
@@ -42,6 +44,7 @@ class TrialLine:
     duration: float | None
     params: dict[str, Any]
     note: str = ""
+    origin: str = "search"  # where the config came from: search, prior, retry of N, from STUDY
 
 
 @dataclass
@@ -138,7 +141,16 @@ def _trial_line(t: Any) -> TrialLine:
                      family=str(t.params.get("family", "")),
                      duration=t.duration.total_seconds() if t.duration else None,
                      params=_shown_params(t.params, attrs.get(ROUNDS_ATTR)),
-                     note=attrs.get("error", ""))
+                     note=attrs.get("error", ""), origin=trial_origin(attrs))
+
+
+def trial_origin(attrs: dict[str, Any]) -> str:
+    """Where a trial's config came from, so a reader can tell what the search found from what it was given."""
+    if attrs.get(LEARNED_ATTR):
+        return f"from {attrs[LEARNED_ATTR]}"
+    if attrs.get(RETRY_ATTR) is not None:
+        return f"retry of {attrs[RETRY_ATTR]}"
+    return "prior" if attrs.get("tl_warm_start") else "search"
 
 
 def _shown_params(params: dict[str, Any], rounds: int | None) -> dict[str, Any]:
