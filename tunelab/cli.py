@@ -150,6 +150,9 @@ def run(
                                               help="An earlier study in the same store (same kind of task): its "
                                                    "best 3 configurations run first, moved into this data's ranges. "
                                                    "Repeat to learn from several."),
+    nearest: int = typer.Option(0, "--learn-nearest", metavar="K", min=0,
+                                help="Also learn from the K earlier studies in the store (same kind of task) whose "
+                                     "data looks most alike by meta-features; their best configurations run first."),
     seed: int = SeedOpt,
     store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
@@ -160,6 +163,8 @@ def run(
     Example: tunelab run sales.csv --target churned --budget 10m
 
     Start from what worked on earlier data: tunelab run q4.csv --target churned --learn-from q3
+
+    Or let tunelab pick the earlier data most like this one: tunelab run q4.csv --target churned --learn-nearest 2
     """
     from tunelab.engine import Budget, parse_duration
     from tunelab.ops import RunRequest, run_study
@@ -168,7 +173,7 @@ def run(
     box = Budget(wall, parse_duration(cpu_budget) if cpu_budget else None, trials)
     request = RunRequest(data=data, target=target, budget=box, store=store, study=study, task=task, metric=metric,
                          seed=seed, space_file=space, pruning=pruning, jobs=jobs,
-                         learn_from=tuple(learn or ()))
+                         learn_from=tuple(learn or ()), learn_nearest=nearest)
     announce, progress, close = _progress_hooks({}, quiet or json_out)
     try:
         result = run_study(request, announce=announce, on_progress=progress, settings=_settings(ctx))

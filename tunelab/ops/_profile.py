@@ -142,7 +142,14 @@ def built_space(dataset: Dataset, *, budget_seconds: float | None, metric: str |
     seed
         Seeds the meta-feature subsamples.
     """
-    return _space(dataset, profile_metafeatures(dataset, seed=seed), budget_seconds, metric, seed)
+    return profiled_space(dataset, budget_seconds=budget_seconds, metric=metric, seed=seed)[0]
+
+
+def profiled_space(dataset: Dataset, *, budget_seconds: float | None, metric: str | None = None,
+                   seed: int = 0) -> tuple[SpaceSpec, MetaFeatures]:
+    """``built_space`` and the meta-features it was built from (``run`` stores them with the study)."""
+    meta = profile_metafeatures(dataset, seed=seed)
+    return _space(dataset, meta, budget_seconds, metric, seed), meta
 
 
 def _space(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None,
@@ -215,4 +222,4 @@ def _plain(value: Any) -> Any:
     return value.item() if hasattr(value, "item") else value
 
 
-__all__ = ["ColumnProfile", "ProfileReport", "built_space", "profile_data", "profile_metafeatures"]
+__all__ = ["ColumnProfile", "ProfileReport", "built_space", "profile_data", "profile_metafeatures", "profiled_space"]

@@ -28,8 +28,9 @@ from tunelab.engine import (
     settled_config,
 )
 from tunelab.errors import InputError, StudyStateError
-from tunelab.ops._learn import LEARNED_ATTR, learn_from
-from tunelab.ops._profile import built_space
+from tunelab.data._similarity import similarity_vector
+from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
+from tunelab.ops._profile import profile_metafeatures, profiled_space
 from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
 from tunelab.models import preload
@@ -56,6 +57,7 @@ class RunRequest:
     pruning: str = "auto"
     jobs: int = 1
     learn_from: tuple[str, ...] = ()  # earlier studies in the same store whose best configs run first
+    learn_nearest: int = 0  # also learn from this many earlier studies whose data looks most alike
 
 
 @dataclass
@@ -101,8 +103,15 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
     metric = resolve_metric(request.metric, dataset.task)
     # The space comes from the data's meta-features (``tunelab profile`` shows it, with reasons);
     # profiling runs inside the launch, so its seconds are charged to the budget like any other.
-    space = _load_space(request.space_file) if request.space_file else \
-        built_space(dataset, budget_seconds=request.budget.wall_seconds, metric=metric.name, seed=request.seed)
+    similarity: dict[str, float] = {}
+    if request.space_file:
+        space = _load_space(request.space_file)
+        if request.learn_nearest:  # only then is it worth the seconds of meta-features
+            similarity = similarity_vector(profile_metafeatures(dataset, seed=request.seed))
+    else:
+        space, meta = profiled_space(dataset, budget_seconds=request.budget.wall_seconds, metric=metric.name,
+                                     seed=request.seed)
+        similarity = similarity_vector(meta)
     _check_space_fits(space, dataset)
     pruner_kind = request.pruning
     expected = _expected_trials(space, request.budget, request.jobs)
@@ -112,7 +121,9 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         if request.study and request.study in store.study_names():
             raise InputError(f"study '{request.study}' already exists in {store.location.display()}",
                              f"continue it with `tunelab resume {request.study}`, or pick another --study name")
-        learned = learn_from(store, list(request.learn_from), space, dataset.task)
+        nearest = nearest_studies(store, similarity, dataset.task, request.learn_nearest) \
+            if request.learn_nearest else None
+        learned = learn_from(store, list(request.learn_from), space, dataset.task, nearest)
         record = store.create_study(
             name=name, now=clock.now(), data_path=str(request.data.resolve()),
             data_sha256=file_sha256(request.data), fingerprint=dataset.fingerprint, target=request.target,
@@ -120,7 +131,8 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
             budget_wall=request.budget.wall_seconds, budget_cpu=request.budget.cpu_seconds,
             budget_trials=request.budget.trials,
             settings={"pruning": pruner_kind, "jobs": request.jobs, "expected_trials": expected,
-                      "n_folds": fold_count(dataset.n_rows, dataset.task, dataset.y)},
+                      "n_folds": fold_count(dataset.n_rows, dataset.task, dataset.y),
+                      **({SIMILARITY_KEY: similarity} if similarity else {})},
             space_json=space.to_json(), space_reason=space.family_reason or "initial search space",
         )
         study = _optuna_study(store, record, launch_number=0, create=True)
