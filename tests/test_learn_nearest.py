@@ -117,3 +117,42 @@ def test_a_negative_count_is_refused(cli, small_csv, store_path) -> None:
                  "--learn-nearest", "-1")
     assert result.code == 2
     assert not store_path.exists()
+
+
+def _earlier_study(store_path: Path, name: str, vector: dict[str, float], task: str = "binary") -> None:
+    """A study record with a stored meta-feature vector and one complete trial, without a search."""
+    import optuna
+
+    from tunelab.store import Store
+
+    with Store.open(str(store_path), create=True) as store:
+        store.create_study(name=name, now=0.0, data_path=f"{name}.csv", data_sha256="", fingerprint="",
+                           target="y", task=task, metric="roc_auc", direction="maximize", seed=0,
+                           budget_wall=60.0, budget_cpu=None, budget_trials=None,
+                           settings={"similarity": vector}, space_json="{}", space_reason="test")
+        study = optuna.create_study(storage=store.optuna_storage(), study_name=name, direction="maximize")
+        study.add_trial(optuna.trial.create_trial(params={}, distributions={}, value=0.8))
+
+
+def test_profile_lists_the_earlier_studies_most_like_the_data(cli, small_csv, store_path, tmp_path) -> None:
+    import json
+
+    own = _vector(pd.read_csv(small_csv), "y", tmp_path / "copy.csv")
+    _earlier_study(store_path, "unlike", {key: 1.0 - value for key, value in own.items()})
+    _earlier_study(store_path, "alike", own)
+    _earlier_study(store_path, "regression-one", own, task="regression")
+    result = cli("profile", str(small_csv), "--target", "y", "--store", str(store_path), "--json")
+    assert result.code == 0, result.err
+    similar = json.loads(result.out)["similar_studies"]
+    assert [s["study"] for s in similar] == ["alike", "unlike"]  # same task only, nearest first
+    assert similar[0]["distance"] == pytest.approx(0.0, abs=1e-9)
+    shown = cli("profile", str(small_csv), "--target", "y", "--store", str(store_path)).out
+    assert "earlier binary studies like this data" in shown and "alike (0.00)" in shown
+
+
+def test_profile_without_a_store_says_nothing_of_earlier_studies_and_creates_none(cli, small_csv, tmp_path) -> None:
+    missing = tmp_path / "none-yet.db"
+    result = cli("profile", str(small_csv), "--target", "y", "--store", str(missing))
+    assert result.code == 0, result.err
+    assert "earlier" not in result.out
+    assert not missing.exists()

@@ -216,3 +216,12 @@ def print_profile(report: Any) -> None:
     out.print(table)
     for note in space.get("notes", []):
         out.print(f"• {note}")
+
+
+def print_similar(similar: list[Any], task: str) -> None:
+    """The earlier studies whose data looks most like this file (``run --learn-nearest``'s picks)."""
+    if not similar:
+        return
+    listed = ", ".join(f"{n.study} ({n.distance:.2f})" for n in similar)
+    out.print(f"earlier {task} studies like this data, by meta-feature distance (0 = alike): {listed}; "
+              f"learn from them with `run --learn-nearest {len(similar)}` or `--learn-from NAME`")

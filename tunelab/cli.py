@@ -321,24 +321,33 @@ def profile(
     write_space: Optional[Path] = typer.Option(None, "--write-space", help="Write the search space JSON here "
                                                                              "(edit it, then pass it to run --space)."),
     seed: int = SeedOpt,
+    store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
     """Describe a data file: column roles, meta-features, and the search space `run` would build, with reasons.
 
+    When the store holds earlier studies of the same task, it also lists the three whose data looks
+    most alike (what `run --learn-nearest 3` would learn from).
+
     Example: tunelab profile sales.csv --target churned --budget 30m --write-space space.json
     """
     from tunelab import _render as r
+    from tunelab.data._similarity import similarity_vector
     from tunelab.engine import parse_duration
     from tunelab.ops import profile_data
+    from tunelab.ops._learn import similar_studies
 
     seconds = parse_duration(budget) if budget else None
     report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed)
+    similar = similar_studies(store, similarity_vector(report.meta), report.task)
     if write_space is not None:
         write_space.write_text(report.space.to_json() + "\n", encoding="utf-8")
     if json_out:
-        r.emit_json(report.to_dict())
+        r.emit_json({**report.to_dict(),
+                     "similar_studies": [{"study": n.study, "distance": n.distance} for n in similar]})
         return
     r.print_profile(report)
+    r.print_similar(similar, report.task)
     if write_space is not None:
         r.out.print(f"wrote the search space to {write_space}; use it with: tunelab run {data} --target {target} "
                     f"--space {write_space}")

@@ -17,7 +17,7 @@ from typing import Any, Mapping
 from tunelab.data._similarity import meta_distance
 from tunelab.errors import InputError
 from tunelab.space import SpaceSpec, carry_configs
-from tunelab.store import Store
+from tunelab.store import Store, resolve
 
 LEARN_TOP = 3  # best complete trials carried from each earlier study (common practice, no source)
 LEARNED_ATTR = "tl_learned_from"
@@ -62,6 +62,15 @@ def nearest_studies(store: Store, vector: Mapping[str, float], task: str, count:
         if any(t.value is not None for t in trials):
             found.append(Neighbour(record.name, distance))
     return sorted(found, key=lambda n: (n.distance, n.study))[:count]
+
+
+def similar_studies(store: str | None, vector: Mapping[str, float], task: str, count: int = 3) -> list[Neighbour]:
+    """What ``--learn-nearest`` would pick for data with this vector; none when the store does not exist yet."""
+    location = resolve(store)
+    if location.path is not None and not location.path.exists():
+        return []
+    with Store.open(store) as opened:
+        return nearest_studies(opened, vector, task, count)
 
 
 def learn_from(store: Store, names: list[str], space: SpaceSpec, task: str,
