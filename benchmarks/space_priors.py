@@ -65,6 +65,7 @@ class ArmResult:
     search_seconds: float = 0.0
     profile_seconds: float = 0.0
     families: list[str] = field(default_factory=list)
+    best_params: dict[str, Any] = field(default_factory=dict)  # the exported trial's config, e.g. boosting loss
     error: str = ""
 
 
@@ -105,6 +106,7 @@ def run_arm(arm: str, train: Path, test: Path, spec: datasets.DatasetSpec, budge
         model = work / f"model-{arm}.zip"
         exported = export_model(arm, model, store=store)
         result.best_family = exported.family
+        result.best_params = _trial_params(store, arm, exported.trial)
         predictions = work / f"pred-{arm}.csv"
         predict_file(model, test, predictions)
         result.scores = score_prediction_file(spec.task, spec.target, test, predictions)
@@ -112,6 +114,16 @@ def run_arm(arm: str, train: Path, test: Path, spec: datasets.DatasetSpec, budge
     except Exception as exc:  # one failed arm is a result (a loss), not the end of the benchmark
         result.error = f"{type(exc).__name__}: {exc}".splitlines()[0]
     return result
+
+
+def _trial_params(store: str, study: str, number: int) -> dict[str, Any]:
+    import optuna
+
+    from tunelab.store import Store
+
+    with Store.open(store) as opened:
+        trials = optuna.load_study(study_name=study, storage=opened.optuna_storage()).get_trials(deepcopy=False)
+    return next((dict(t.params) for t in trials if t.number == number), {})
 
 
 def compare(name: str, budget: float, seed: int, keep: Path | None = None) -> dict[str, Any]:
