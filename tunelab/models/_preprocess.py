@@ -153,7 +153,29 @@ def signed_log1p(values: Any) -> Any:
     return np.sign(values) * np.log1p(np.abs(values))
 
 
+class PooledScaler(TransformerMixin, BaseEstimator):
+    """Centre each column, then divide every column by one shared scale.
+
+    For columns measured in one unit (pixels, counts of one kind): the root mean of the column
+    variances becomes 1 while each column keeps its spread relative to the others, which
+    per-column standardising would erase (see :mod:`tunelab.data._shared_scale`).
+    """
+
+    def fit(self, X: Any, y: Any = None) -> "PooledScaler":
+        values = np.asarray(X, dtype=float)
+        self.mean_ = values.mean(axis=0)
+        pooled = float(np.sqrt(values.var(axis=0).mean())) if values.size else 0.0
+        self.scale_ = pooled if np.isfinite(pooled) and pooled > 0 else 1.0
+        self.n_features_in_ = values.shape[1]
+        return self
+
+    def transform(self, X: Any) -> np.ndarray:
+        return (np.asarray(X, dtype=float) - self.mean_) / self.scale_
+
+
 def _numeric_scaler(kind: str, seed: int) -> Any:
+    if kind == "pooled":
+        return PooledScaler()
     if kind == "quantile":
         return QuantileTransformer(output_distribution="normal", n_quantiles=200, random_state=seed)
     if kind == "log":
@@ -165,4 +187,4 @@ def text_columns(roles: Mapping[str, str]) -> Sequence[str]:
     return [c for c, r in roles.items() if r == "text"]
 
 
-__all__ = ["build_preprocessor", "datetime_parts", "fill_text", "as_object", "text_columns", "Pipeline"]
+__all__ = ["PooledScaler", "build_preprocessor", "datetime_parts", "fill_text", "as_object", "text_columns", "Pipeline"]

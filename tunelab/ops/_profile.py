@@ -17,7 +17,7 @@ from tunelab.data import Dataset, load_dataset
 from tunelab.data._metafeatures import MetaFeatures, compute_metafeatures
 from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
 from tunelab.space import SpaceSpec, numeric_map_choices, probe_transforms
-from tunelab.space._builder import build_space
+from tunelab.space._builder import build_space, numeric_shares_one_scale
 
 # Meta-feature effort: landmarkers on at most this many rows, each stopped after this many seconds,
 # so 50,000 rows x 50 columns profile in a few seconds (statistics already cap their own rows).
@@ -154,7 +154,7 @@ def profiled_space(dataset: Dataset, *, budget_seconds: float | None, metric: st
 
 def _space(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None,
            seed: int) -> SpaceSpec:
-    choices = numeric_map_choices(meta.statistical.mean_abs_skewness)
+    choices = numeric_map_choices(meta.statistical.mean_abs_skewness, numeric_shares_one_scale(dataset))
     probe = probe_transforms(dataset, metric, choices, seed=seed)
     return build_space(dataset, meta, budget_seconds=budget_seconds, metric=metric, transform_probe=probe)
 
