@@ -23,7 +23,9 @@ import tempfile
 import warnings
 from pathlib import Path
 
-import numpy as np
+os.environ.setdefault("OMP_NUM_THREADS", "1")  # before NumPy and scikit-learn load their thread pools
+
+import numpy as np  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
@@ -70,7 +72,6 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--rows", type=int, default=1500, help="rows sampled from each training split")
     parser.add_argument("--seed", type=int, default=0, help="seed of the split, the sample and the folds")
     args = parser.parse_args(argv)
-    os.environ.setdefault("OMP_NUM_THREADS", "1")
     agree = 0
     names = [n.strip() for n in args.datasets.split(",") if n.strip()]
     for name in names:
