@@ -18,7 +18,6 @@ from __future__ import annotations
 import argparse
 import os
 import sys
-import tempfile
 import warnings
 from pathlib import Path
 
@@ -30,7 +29,6 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from benchmarks import datasets  # noqa: E402
 from benchmarks.space_priors import DEFAULT_DATASETS  # noqa: E402
-from tunelab.data import load_dataset  # noqa: E402
 from tunelab.engine._folds import make_folds  # noqa: E402
 from tunelab.engine._metrics import DEFAULT_METRIC, resolve_metric, score  # noqa: E402
 from tunelab.models import build_pipeline  # noqa: E402
@@ -42,12 +40,7 @@ ROUNDS = 200
 
 def _cv(name: str, seed: int) -> tuple[bool, dict[tuple[str, float], float]]:
     """Mean five-fold score of each (prior centre, share) on one seed's training split."""
-    spec = datasets.get(name)
-    train, _ = datasets.split(name, seed=seed)
-    with tempfile.TemporaryDirectory() as tmp:
-        path = Path(tmp) / "train.csv"
-        train.to_csv(path, index=False)
-        ds = load_dataset(path, spec.target, None)
+    ds = datasets.training_dataset(name, seed)
     metric = resolve_metric(DEFAULT_METRIC[ds.task], ds.task)
     cardinality = {c.name: c.n_unique for c in ds.columns}
     folds = make_folds(ds.y, ds.task, seed, 5)

@@ -22,10 +22,11 @@ Public functions: :func:`names`, :func:`get`, :func:`load`, :func:`split`, :func
 from __future__ import annotations
 
 import importlib
+import tempfile
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 import pandas as pd
@@ -310,3 +311,19 @@ __all__ = [
     "split",
     "write_split",
 ]
+
+
+def training_dataset(name: str, seed: int = 0) -> Any:
+    """A seed's training split loaded as tunelab's own ``Dataset`` (roles inferred, task from the data).
+
+    Goes through a CSV file, as a user's data does, so the scripts that fit tunelab's pipelines
+    outside a search see exactly the columns and roles a search would.
+    """
+    from tunelab.data import load_dataset
+
+    spec = get(name)
+    train, _ = split(name, seed=seed)
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "train.csv"
+        train.to_csv(path, index=False)
+        return load_dataset(path, spec.target, None)

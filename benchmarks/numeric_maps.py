@@ -19,7 +19,6 @@ from __future__ import annotations
 import argparse
 import os
 import sys
-import tempfile
 import warnings
 from pathlib import Path
 
@@ -30,7 +29,6 @@ import numpy as np  # noqa: E402
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from benchmarks import datasets  # noqa: E402
-from tunelab.data import load_dataset  # noqa: E402
 from tunelab.engine._folds import make_folds  # noqa: E402
 from tunelab.engine._metrics import DEFAULT_METRIC, resolve_metric, score  # noqa: E402
 from tunelab.models import build_pipeline  # noqa: E402
@@ -41,12 +39,7 @@ DEFAULT_DATASETS = "digits,hpc,credit,titanic,ames,wage"
 
 
 def _scores(name: str, rows: int, seed: int) -> tuple[str, bool, dict[tuple[str, str], float]]:
-    spec = datasets.get(name)
-    train, _ = datasets.split(name, seed=seed)
-    with tempfile.TemporaryDirectory() as tmp:
-        path = Path(tmp) / "train.csv"
-        train.to_csv(path, index=False)
-        ds = load_dataset(path, spec.target, None)
+    ds = datasets.training_dataset(name, seed)
     metric = resolve_metric(DEFAULT_METRIC[ds.task], ds.task)
     sample = np.sort(np.random.default_rng(seed).choice(ds.n_rows, min(rows, ds.n_rows), replace=False))
     X, y = ds.X.iloc[sample], ds.y[sample]
