@@ -16,7 +16,8 @@ Changes made to a published table are few and listed in each entry's ``notes``:
   no method has to guess from integer codes whether a column is a class or a quantity;
 * a table larger than ``max_rows`` is subsampled once with a fixed seed.
 
-Public functions: :func:`names`, :func:`get`, :func:`load`, :func:`split`, :func:`write_split`.
+Public functions: :func:`names`, :func:`get`, :func:`load`, :func:`split`, :func:`write_split`,
+:func:`training_dataset`.
 """
 
 from __future__ import annotations
@@ -26,11 +27,14 @@ import tempfile
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 import pandas as pd
 from sklearn.model_selection import train_test_split
+
+if TYPE_CHECKING:
+    from tunelab.data import Dataset
 
 Task = Literal["binary", "multiclass", "regression"]
 
@@ -301,19 +305,7 @@ def write_split(name: str, directory: str | Path, seed: int = 0) -> tuple[Path, 
     return train_path, test_path
 
 
-__all__ = [
-    "DatasetSpec",
-    "chosen",
-    "TEST_FRACTION",
-    "get",
-    "load",
-    "names",
-    "split",
-    "write_split",
-]
-
-
-def training_dataset(name: str, seed: int = 0) -> Any:
+def training_dataset(name: str, seed: int = 0) -> Dataset:
     """A seed's training split loaded as tunelab's own ``Dataset`` (roles inferred, task from the data).
 
     Goes through a CSV file, as a user's data does, so the scripts that fit tunelab's pipelines
@@ -327,3 +319,17 @@ def training_dataset(name: str, seed: int = 0) -> Any:
         path = Path(tmp) / "train.csv"
         train.to_csv(path, index=False)
         return load_dataset(path, spec.target, None)
+
+
+__all__ = [
+    "DatasetSpec",
+    "chosen",
+    "TEST_FRACTION",
+    "get",
+    "load",
+    "names",
+    "split",
+    "training_dataset",
+    "write_split",
+]
+
