@@ -37,6 +37,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
@@ -205,6 +206,45 @@ def pool_seeds(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
     return pooled
 
 
+def paired_gains(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Per dataset, the per-seed gains as a paired sample: mean, standard error, seeds won, p value.
+
+    Each seed is one split searched by both arms, so the pairs share their test rows; their spread
+    says whether a mean gain is larger than the seed-to-seed noise.  The p value is the two-sided
+    Wilcoxon signed-rank test (Wilcoxon 1945; ``scipy.stats.wilcoxon``) of the per-seed gains
+    against zero; a report only, the issue's rule judges the pooled means.
+    """
+    from scipy import stats
+
+    by_name: dict[str, list[float]] = {}
+    for row in rows:
+        arms = row["arms"]
+        gain = _relative_gain(row["metric"], arms["built"]["score"], arms["fixed"]["score"])
+        by_name.setdefault(row["dataset"], []).append(float("nan") if gain is None else gain)
+    paired = []
+    for name, gains in by_name.items():
+        g = np.asarray(gains, dtype=float)
+        g = g[np.isfinite(g)]
+        n = len(g)
+        nonzero = g[g != 0]
+        p = float(stats.wilcoxon(nonzero).pvalue) if len(nonzero) >= 2 else None
+        paired.append({"dataset": name, "seeds": n, "mean_gain": float(g.mean()) if n else None,
+                       "standard_error": float(g.std(ddof=1) / np.sqrt(n)) if n >= 2 else None,
+                       "won": int((g > 0).sum()), "lost": int((g < 0).sum()), "tied": int((g == 0).sum()),
+                       "p_value": p})
+    return paired
+
+
+def print_paired(paired: list[dict[str, Any]]) -> None:
+    print()
+    print(f"{'per-seed gain':14s} {'mean %':>7s} {'± se %':>7s} {'won/lost/tied':>13s} {'p':>6s}")
+    for row in paired:
+        mean, se, p = row["mean_gain"], row["standard_error"], row["p_value"]
+        print(f"{row['dataset']:14s} {'—' if mean is None else f'{100 * mean:+.2f}':>7s} "
+              f"{'—' if se is None else f'{100 * se:.2f}':>7s} "
+              f"{row['won']:>5d}/{row['lost']}/{row['tied']:<5d} {'—' if p is None else f'{p:.2f}':>6s}")
+
+
 def _fmt(value: float | None) -> str:
     return "—" if value is None else f"{value:.4f}"
 
@@ -249,6 +289,9 @@ def report(rows: list[dict[str, Any]]) -> dict[str, Any]:
     for seed, one in summary.get("per_seed", {}).items():
         print(f"  seed {seed}: built wins {one['built_wins']} of {one['datasets']}, losses by more than "
               f"{LOSS_TOLERANCE:.0%}: {one['built_losses_beyond_1pct']}, better cv {one['built_better_cv']}")
+    if len(seeds) > 1:
+        summary["paired"] = paired_gains(rows)
+        print_paired(summary["paired"])
     return summary
 
 

@@ -277,3 +277,23 @@ def test_report_still_renders_when_every_method_failed_on_a_dataset() -> None:
     records += [record("b", m, None) for m in ("hgb_default", "tpe")]
     report = render(records)
     assert "failed" in report and "1 *" in report
+
+
+def test_paired_seed_gains_give_mean_spread_counts_and_the_exact_signed_rank_p_value() -> None:
+    from benchmarks.space_priors import paired_gains
+
+    # Six seeds, the built arm's RMSE lower on every one: all six signed ranks positive, so the
+    # exact two-sided Wilcoxon p value is 2 / 2**6 (Wilcoxon 1945; one of 64 equally likely sign
+    # patterns at each extreme).  A seventh seed tied exactly counts as tied, not as a pair.
+    fixed = [10.0, 10.0, 10.0, 10.0, 10.0, 10.0, 10.0]
+    built = [9.0, 9.5, 9.8, 9.9, 9.7, 9.6, 10.0]
+    rows = [{"dataset": "toy", "metric": "rmse", "seed": seed,
+             "arms": {"fixed": {"score": f}, "built": {"score": b}}}
+            for seed, (f, b) in enumerate(zip(fixed, built))]
+    (toy,) = paired_gains(rows)
+    gains = np.array([0.10, 0.05, 0.02, 0.01, 0.03, 0.04, 0.0])
+    assert toy["seeds"] == 7
+    assert toy["mean_gain"] == pytest.approx(gains.mean())
+    assert toy["standard_error"] == pytest.approx(gains.std(ddof=1) / math.sqrt(7))
+    assert (toy["won"], toy["lost"], toy["tied"]) == (6, 0, 1)
+    assert toy["p_value"] == pytest.approx(2 / 2**6)
