@@ -40,7 +40,7 @@ import pandas as pd  # noqa: E402
 from threadpoolctl import threadpool_limits  # noqa: E402
 
 from benchmarks import datasets  # noqa: E402
-from benchmarks._scoring import PRIMARY_METRIC, Predictions, score_predictions  # noqa: E402
+from benchmarks._scoring import PRIMARY_METRIC, Predictions, orient, score_predictions  # noqa: E402
 from benchmarks._tunelab_cli import read_predictions  # noqa: E402
 from benchmarks.space_priors import ARMS, paired_gains, pool_seeds, print_paired, summarise  # noqa: E402
 from tunelab.engine import trial_state  # noqa: E402
@@ -120,8 +120,8 @@ def study_scores(folder: Path, ks: tuple[int, ...], workdir: Path) -> dict[str, 
 
 
 def _gain(metric: str, new: float, old: float) -> float:
-    sign = 1.0 if metric in ("roc_auc", "accuracy") else -1.0
-    return 100.0 * sign * (new - old) / abs(old)
+    """Relative change of a score in %, turned so that positive is better."""
+    return 100.0 * (orient(metric, new) - orient(metric, old)) / abs(old)
 
 
 def _verdict_rows(results: list[dict[str, Any]], choice: str) -> list[dict[str, Any]]:
