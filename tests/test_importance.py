@@ -310,9 +310,12 @@ def test_pruned_trials_count_but_never_give_the_best_value() -> None:
     assert without.row("x1").n_trials == 60
 
 
-def test_failed_trials_are_refused_as_records() -> None:
-    with pytest.raises(InputError, match="state 'failed'"):
-        TrialRecord(1, {"x1": 0.5}, 0.1, state="failed")
+def test_failed_and_interrupted_trials_are_left_out_of_the_table() -> None:
+    trials = random_trials(lambda x1, x2, x3: 3 * x1 + x2, UNIT_CUBE, 40, seed=3)
+    others = [TrialRecord(900, {"x1": 0.5, "x2": 0.5, "x3": 0.5}, None, state="failed"),
+              TrialRecord(901, {"x1": 0.5, "x2": 0.5, "x3": 0.5}, None, state="interrupted")]
+    report = importance_table([*trials, *others], UNIT_CUBE, direction="maximize")
+    assert report.row("x1").n_trials == 40
 
 
 def test_value_outside_its_distribution_is_an_input_error() -> None:

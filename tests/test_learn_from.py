@@ -85,7 +85,7 @@ def test_the_earlier_best_configs_run_first_and_are_marked_with_their_source(two
 
 
 def test_status_tells_carried_prior_retried_and_searched_configs_apart() -> None:
-    from tunelab.ops._status import trial_origin
+    from tunelab.store import origin_of as trial_origin
 
     assert trial_origin({"tl_warm_start": True, "tl_learned_from": "q3"}) == "from q3"
     assert trial_origin({"tl_warm_start": True}) == "prior"

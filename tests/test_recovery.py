@@ -7,11 +7,12 @@ import time
 import optuna
 from optuna.trial import TrialState
 
-from tunelab.engine import Budget, FakeClock, SearchSettings, TrialResult
-from tunelab.engine._recovery import LAUNCH_ATTR, recover, trial_state
+from tunelab.engine import Budget, FakeClock, SearchSettings, TrialResult, open_search_study, recover, trial_state
 from tunelab.ops import run_objective_study
 from tunelab.space import ParamSpec, SpaceSpec
-from tunelab.store import Store
+from tunelab.store import Store, keys
+
+LAUNCH_ATTR = keys.LAUNCH
 
 SPACE = SpaceSpec(params={"x": ParamSpec("float", low=-5.0, high=5.0)})
 HOUR = 3600.0
@@ -31,8 +32,9 @@ def _study_with_an_untagged_running_trial(store_path) -> int:
 
 def _recover(store_path, **kwargs):
     st = Store.open(str(store_path))
-    study = optuna.load_study(study_name="bowl", storage=st.optuna_storage())
-    return st, study, recover(st, st.get_study("bowl"), study, now=time.time(), stale_after=HOUR, phase=1, **kwargs)
+    record = st.get_study("bowl")
+    study = open_search_study(st, record, launch_number=1, create=False)
+    return st, study.study, recover(st, record, study, now=time.time(), stale_after=HOUR, phase=1, **kwargs)
 
 
 def test_an_ownerless_running_trial_is_interrupted_and_requeued_at_once_when_no_launch_is_live(store_path):

@@ -4,6 +4,7 @@ from tunelab.data._dataset import Dataset, clean_column, dataset_fingerprint, lo
 from tunelab.data._read import file_sha256, read_table
 from tunelab.data._roles import ROLES, ColumnRole, Role, infer_roles
 from tunelab.data._task import TASKS, Task, infer_task
+from tunelab.data._similarity import SimilarityVector, meta_distance, similarity_vector
 
 __all__ = [
     "ROLES",
@@ -11,6 +12,7 @@ __all__ = [
     "ColumnRole",
     "Dataset",
     "Role",
+    "SimilarityVector",
     "Task",
     "clean_column",
     "dataset_fingerprint",
@@ -18,6 +20,8 @@ __all__ = [
     "infer_roles",
     "infer_task",
     "load_dataset",
+    "meta_distance",
     "prepare_frame",
     "read_table",
+    "similarity_vector",
 ]

@@ -40,6 +40,7 @@ import pandas as pd
 from tunelab.data._roles import ROLES
 from tunelab.data._task import TASKS, Task
 from tunelab.errors import InputError
+from tunelab.values import plain
 
 if TYPE_CHECKING:  # pragma: no cover - imported lazily at run time to keep start-up fast
     from sklearn.base import BaseEstimator
@@ -288,23 +289,9 @@ class MetaFeatures:
         dict
             One key per group, nested the same way as the dataclasses.
         """
-        result = _plain(self)
+        result = plain(self)
         assert isinstance(result, dict)
         return result
-
-
-def _plain(value: Any) -> Any:
-    if is_dataclass(value) and not isinstance(value, type):
-        return {f.name: _plain(getattr(value, f.name)) for f in fields(value)}
-    if isinstance(value, Mapping):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
-    if isinstance(value, (np.integer,)):
-        return int(value)
-    if isinstance(value, (float, np.floating)):
-        return float(value) if math.isfinite(value) else None
-    return value
 
 
 # --------------------------------------------------------------------------------------

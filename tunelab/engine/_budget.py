@@ -6,6 +6,7 @@ import re
 from dataclasses import dataclass
 
 from tunelab.errors import BudgetError
+from tunelab.values import format_duration
 
 _UNITS = {"s": 1.0, "m": 60.0, "h": 3600.0, "d": 86400.0}
 _PART = re.compile(r"(\d+(?:\.\d+)?)([smhd])")
@@ -33,18 +34,6 @@ def parse_duration(text: str) -> float:
     if seconds <= 0:
         raise BudgetError(f"budget must be more than zero, got '{text}'", hint)
     return seconds
-
-
-def format_duration(seconds: float) -> str:
-    """``75`` → ``1m15s``; short, for progress lines and tables."""
-    seconds = max(0.0, float(seconds))
-    if seconds < 60:
-        return f"{seconds:.0f}s" if seconds >= 10 else f"{seconds:.1f}s"
-    minutes, sec = divmod(int(round(seconds)), 60)
-    if minutes < 60:
-        return f"{minutes}m{sec:02d}s"
-    hours, minutes = divmod(minutes, 60)
-    return f"{hours}h{minutes:02d}m"
 
 
 @dataclass(frozen=True)

@@ -46,6 +46,7 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
+from tunelab.store import keys
 from tunelab.engine._folds import make_folds
 from tunelab.engine._metrics import Metric, better, score, score_output
 
@@ -67,7 +68,7 @@ ROUND_CHECKS = 20
 # many rounds) without a better held-out loss; see ``_stop_on_held_out``.  Common practice, no source.
 EARLY_STOP_SHARE = 0.1
 EARLY_STOP_MIN_ROUNDS = 10
-ROUNDS_ATTR = "boosting_rounds"
+ROUNDS_ATTR = keys.ROUNDS
 
 
 class PruneSignal(Exception):
@@ -90,6 +91,24 @@ class Objective(Protocol):
 def fold_step(fold: int) -> int:
     """The step reported when fold ``fold`` (counted from 1) is done."""
     return STEPS_PER_FOLD * fold
+
+
+def fold_scores_from_reports(reports: Mapping[int, float]) -> list[float]:
+    """Each finished fold's own score, from the running means reported after folds 1, 2, ...
+
+    A trial reports the mean of folds 1 … f at step ``fold_step(f)``, so fold f scored
+    ``f · mean_f − (f − 1) · mean_(f−1)``; a pruned trial's finished folds are compared with
+    other trials' scores on the same folds this way.
+    """
+    scores: list[float] = []
+    previous = 0.0
+    fold = 1
+    while fold_step(fold) in reports:
+        mean = float(reports[fold_step(fold)])
+        scores.append(fold * mean - (fold - 1) * previous)
+        previous = mean
+        fold += 1
+    return scores
 
 
 def step_folds(step: int) -> float:
@@ -187,11 +206,11 @@ class CrossValidationObjective:
             if fold < len(self.folds):
                 report(fold_step(fold), float(np.mean(scores)))
         extras: dict[str, Any] = {
-            "fold_std": float(np.std(scores)), "fit_seconds": time.perf_counter() - started,
-            "fidelity": f"{len(scores)}/{len(self.folds)} folds" + (f", {cap} training rows per fold" if cap else ""),
+            keys.FOLD_STD: float(np.std(scores)), keys.FIT_SECONDS: time.perf_counter() - started,
+            keys.FIDELITY: f"{len(scores)}/{len(self.folds)} folds" + (f", {cap} training rows per fold" if cap else ""),
         }
         if rounds is not None:
-            extras[ROUNDS_ATTR] = rounds
+            extras[keys.ROUNDS] = rounds
         return TrialResult(value=float(np.mean(scores)), fold_scores=scores, extras=extras)
 
 

@@ -44,6 +44,7 @@ from optuna.trial import FrozenTrial, TrialState
 
 from tunelab.engine._objective import STEPS_PER_FOLD
 from tunelab.errors import InputError
+from tunelab.store import keys
 
 PRUNING_CHOICES = ("auto", "off", "median", "halving", "hyperband")
 
@@ -90,7 +91,7 @@ def fold_noise(study: optuna.Study) -> float | None:
     """
     rows: dict[int, list[list[float]]] = {}
     for t in study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,)):
-        scores = t.user_attrs.get("fold_scores")
+        scores = t.user_attrs.get(keys.FOLD_SCORES)
         if isinstance(scores, list) and len(scores) >= 2 and all(math.isfinite(float(v)) for v in scores):
             rows.setdefault(len(scores), []).append([float(v) for v in scores])
     if not rows:

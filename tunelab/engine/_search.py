@@ -12,22 +12,17 @@ import threading
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
-from optuna.exceptions import UpdateFinishedTrialError
 from optuna.trial import TrialState
 
 from tunelab.engine._budget import Budget, Spent, remaining
 from tunelab.engine._clock import Clock
-from tunelab.engine._recovery import (
-    INTERRUPTED,
-    LAUNCH_ATTR,
-    PHASE_ATTR,
-    STATE_ATTR,
-    recover,
-)
+from tunelab.engine._objective import fold_scores_from_reports
+from tunelab.engine._recovery import recover
 from tunelab.engine._runner import Limits, Outcome
 from tunelab.engine._stop import StopRequested, clear_stop, hold_stops, raise_pending
+from tunelab.engine._study import SearchStudy
 from tunelab.space import SpaceSpec
-from tunelab.store import Store, StudyRecord
+from tunelab.store import Store, StudyRecord, keys
 
 
 @dataclass
@@ -111,182 +106,218 @@ class _Heartbeat:
         self.beat()
 
 
-def search(store: Store, record: StudyRecord, study: Any, space: SpaceSpec, runner: Any, budget: Budget,
+def search(store: Store, record: StudyRecord, study: SearchStudy, space: SpaceSpec, runner: Any, budget: Budget,
            *, clock: Clock, settings: SearchSettings | None = None,
            on_progress: Callable[[Progress], None] | None = None) -> SearchSummary:
     """Run trials until the budget, the trial cap, or a stop request ends the launch."""
     settings = settings or SearchSettings()
     started = settings.started if settings.started is not None else clock.now()
     fixes = recover(store, record, study, now=clock.now(), stale_after=settings.stale_after, phase=settings.phase)
-    now = clock.now()
-    # Wall time is the union of launch intervals: this launch counts from its process start, and
-    # time other live launches already cover is not counted twice (a joining worker gets their deadline).
-    wall_spent, cpu_spent = store.spent(record.id, extra=(started, now))
-    done = store.count_finished(record.name)
-    left_wall, left_cpu, left_trials = remaining(budget, Spent(wall_spent, cpu_spent, done))
     summary = SearchSummary(None, "", 0.0, recovered=fixes.interrupted, requeued=fixes.requeued)
-    if left_wall == 0 or left_cpu == 0 or left_trials == 0:
+    box = _Box.left(store, record, budget, started, clock.now())
+    if box.empty:
         summary.stop_reason = "budget already spent"
         _fill_best(summary, study)
         return summary
-    launch_id = store.start_launch(record.id, kind=settings.kind, now=started)
-    summary.launch_id = launch_id
-    deadline = None if left_wall is None else now + left_wall
-    heartbeat = _Heartbeat(store, launch_id, clock, started, settings.heartbeat_interval, runner)
-    heartbeat.beat()  # start-up time (imports, loading) is already spent: record it before the first trial
-    owner = {LAUNCH_ATTR: launch_id, PHASE_ATTR: settings.phase}
-    if hasattr(study._storage, "stamp"):
-        study._storage.stamp = dict(owner)  # new trials are created carrying their owner
-    durations: dict[str, list[float]] = _past_durations(study)
-    counts = {"complete": 0, "pruned": 0, "failed": 0, "interrupted": 0}
+    launch = _Launch(store, record, study, space, runner, clock, settings, started, box, summary)
     state = "finished"
-    trial = None
-    next_recovery = clock.now() + settings.recovery_interval
     try:
-        while True:
-            if clock.now() >= next_recovery:  # another worker may have died: re-queue its trials
-                found = recover(store, record, study, now=clock.now(), stale_after=settings.stale_after,
-                                phase=settings.phase, own_launch=launch_id)
-                summary.recovered += found.interrupted
-                summary.requeued += found.requeued
-                next_recovery = clock.now() + settings.recovery_interval
-            raise_pending()
-            finished_total = store.count_finished(record.name) if budget.trials is not None else 0
-            reason = _stop_reason(clock.now(), deadline, left_cpu, heartbeat, budget.trials, finished_total,
-                                  durations)
-            if reason:
-                summary.stop_reason = reason
-                break
-            with hold_stops():  # a stop waits until the trial is claimed, stamped and its config stored
-                trial = study.ask()
-                _stamp(study, trial, owner)
-                config = space.sample(trial)
-                _flush(study)  # the config is in the store before the fit starts: a crash re-queues it
-            t0 = clock.now()
-            cpu_left = None if left_cpu is None else max(0.0, left_cpu - heartbeat.cpu_seconds())
-            outcome = runner.run(config, _pruning_hook(trial), Limits(deadline, cpu_left), clock)
-            with hold_stops():  # the outcome is recorded whole, then a stop acts
-                kind = _record(study, trial, outcome, clock.now() - t0, getattr(runner, "objective", None))
-                trial = None
-                counts[kind] += 1
-            if kind == "complete":
-                durations.setdefault(str(config.get("family", "")), []).append(clock.now() - t0)
-            heartbeat.trials_done += 1
-            if settings.heartbeat_interval is None:
-                heartbeat.beat()
+        while not launch.should_stop(budget):
+            kind = launch.run_one_trial()
             if on_progress is not None:
-                on_progress(_progress(study, started, left_wall, counts, kind, outcome))
-            if kind == INTERRUPTED:
-                summary.stop_reason = outcome.extras.get("stopped_by", "time budget") + " spent during a trial"
+                on_progress(launch.progress(kind))
+            if kind == keys.INTERRUPTED:
                 break
     except (KeyboardInterrupt, StopRequested) as exc:
-        clear_stop()
-        if trial is not None and _mark_interrupted(study, trial):
-            counts[INTERRUPTED] += 1
-        counts[INTERRUPTED] += _mark_orphans_interrupted(study)
-        name = exc.signal_name if isinstance(exc, StopRequested) else "SIGINT"
-        summary.signal_name = name
-        summary.exit_code = exc.exit_code if isinstance(exc, StopRequested) else 130
-        summary.stop_reason = f"stopped by {name}"
+        launch.stopped_by(exc)
         state = "interrupted"
     except BaseException:
-        if trial is not None:
-            _mark_interrupted(study, trial)
-        _mark_orphans_interrupted(study)
+        launch.abandon()
         state = "crashed"
         raise
     finally:
-        runner.close()
-        heartbeat.stop()
-        store.end_launch(launch_id, state=state, reason=summary.stop_reason or "error")
+        launch.close(state)
     summary.elapsed = clock.now() - started
-    summary.counts = counts
+    summary.counts = launch.counts
     _fill_best(summary, study)
     return summary
 
 
-def _stamp(study: Any, trial: Any, owner: dict[str, Any]) -> None:
+@dataclass
+class _Box:
+    """What is left of the study's budget for this launch, and when it must end."""
+
+    wall: float | None
+    cpu: float | None
+    trials: int | None
+    deadline: float | None
+
+    @property
+    def empty(self) -> bool:
+        return self.wall == 0 or self.cpu == 0 or self.trials == 0
+
+    @classmethod
+    def left(cls, store: Store, record: StudyRecord, budget: Budget, started: float, now: float) -> "_Box":
+        # Wall time is the union of launch intervals: this launch counts from its process start, and
+        # time other live launches already cover is not counted twice (a joining worker gets their deadline).
+        wall_spent, cpu_spent = store.spent(record.id, extra=(started, now))
+        done = store.count_finished(record.name)
+        wall, cpu, trials = remaining(budget, Spent(wall_spent, cpu_spent, done))
+        return cls(wall, cpu, trials, None if wall is None else now + wall)
+
+
+class _Launch:
+    """One launch's loop state: its ledger row and heartbeat, the trial in hand, and what it counted."""
+
+    def __init__(self, store: Store, record: StudyRecord, study: SearchStudy, space: SpaceSpec, runner: Any,
+                 clock: Clock, settings: SearchSettings, started: float, box: _Box, summary: SearchSummary) -> None:
+        self.store, self.record, self.study, self.space, self.runner = store, record, study, space, runner
+        self.clock, self.settings, self.started, self.box, self.summary = clock, settings, started, box, summary
+        self.id = store.start_launch(record.id, kind=settings.kind, now=started)
+        summary.launch_id = self.id
+        self.heartbeat = _Heartbeat(store, self.id, clock, started, settings.heartbeat_interval, runner)
+        self.heartbeat.beat()  # start-up time (imports, loading) is already spent: record it before the first trial
+        self.owner = {keys.LAUNCH: self.id, keys.PHASE: settings.phase}
+        study.stamp(self.owner)  # new trials are created carrying their owner
+        self.durations = _past_durations(study)
+        self.counts = {"complete": 0, "pruned": 0, "failed": 0, "interrupted": 0}
+        self.trial: Any = None
+        self.next_recovery = clock.now() + settings.recovery_interval
+
+    def should_stop(self, budget: Budget) -> bool:
+        """Re-queue dead workers' trials when due, act on a pending stop, then check the budget."""
+        if self.clock.now() >= self.next_recovery:  # another worker may have died: re-queue its trials
+            found = recover(self.store, self.record, self.study, now=self.clock.now(),
+                            stale_after=self.settings.stale_after, phase=self.settings.phase, own_launch=self.id)
+            self.summary.recovered += found.interrupted
+            self.summary.requeued += found.requeued
+            self.next_recovery = self.clock.now() + self.settings.recovery_interval
+        raise_pending()
+        finished_total = self.store.count_finished(self.record.name) if budget.trials is not None else 0
+        reason = _stop_reason(self.clock.now(), self.box.deadline, self.box.cpu, self.heartbeat, budget.trials,
+                              finished_total, self.durations)
+        self.summary.stop_reason = reason
+        return bool(reason)
+
+    def run_one_trial(self) -> str:
+        """Ask for a config, evaluate it, and record the outcome whole; returns the trial's state."""
+        with hold_stops():  # a stop waits until the trial is claimed, stamped and its config stored
+            self.trial = self.study.study.ask()
+            _stamp(self.study, self.trial, self.owner)
+            config = self.space.sample(self.trial)
+            self.study.flush()  # the config is in the store before the fit starts: a crash re-queues it
+        t0 = self.clock.now()
+        cpu_left = None if self.box.cpu is None else max(0.0, self.box.cpu - self.heartbeat.cpu_seconds())
+        hook = _PruningHook(self.trial)
+        outcome = self.runner.run(config, hook, Limits(self.box.deadline, cpu_left), self.clock)
+        with hold_stops():  # the outcome is recorded whole, then a stop acts
+            kind = _record(self.study, self.trial, outcome, self.clock.now() - t0, hook.reports,
+                           getattr(self.runner, "objective", None))
+            self.trial = None
+            self.counts[kind] += 1
+        if kind == "complete":
+            self.durations.setdefault(str(config.get("family", "")), []).append(self.clock.now() - t0)
+        self.heartbeat.trials_done += 1
+        if self.settings.heartbeat_interval is None:
+            self.heartbeat.beat()
+        if kind == keys.INTERRUPTED:
+            self.summary.stop_reason = outcome.extras.get("stopped_by", "time budget") + " spent during a trial"
+        return kind
+
+    def progress(self, kind: str) -> Progress:
+        return Progress(started=self.started, box_seconds=self.box.wall, trials=sum(self.counts.values()),
+                        counts=dict(self.counts), best=_best_value(self.study), last_state=kind)
+
+    def stopped_by(self, exc: BaseException) -> None:
+        """A signal or Ctrl-C: the trial in hand and any orphan are recorded as interrupted."""
+        clear_stop()
+        if self.trial is not None and self.study.mark_interrupted(self.trial.number):
+            self.counts[keys.INTERRUPTED] += 1
+        self.counts[keys.INTERRUPTED] += _mark_orphans_interrupted(self.study)
+        name = exc.signal_name if isinstance(exc, StopRequested) else "SIGINT"
+        self.summary.signal_name = name
+        self.summary.exit_code = exc.exit_code if isinstance(exc, StopRequested) else 130
+        self.summary.stop_reason = f"stopped by {name}"
+
+    def abandon(self) -> None:
+        """An error ends the launch: leave no trial of this process running."""
+        if self.trial is not None:
+            self.study.mark_interrupted(self.trial.number)
+        _mark_orphans_interrupted(self.study)
+
+    def close(self, state: str) -> None:
+        self.runner.close()
+        self.heartbeat.stop()
+        self.store.end_launch(self.id, state=state, reason=self.summary.stop_reason or "error")
+
+
+def _stamp(study: SearchStudy, trial: Any, owner: dict[str, Any]) -> None:
     """Record which launch and phase run the trial (new trials already carry it; queued ones do not)."""
-    have = study._storage.get_trial(trial._trial_id).user_attrs
+    have = trial.user_attrs
     for key, value in owner.items():
         if have.get(key) != value:
-            study._storage.set_trial_user_attr(trial._trial_id, key, value)
+            trial.set_user_attr(key, value)
 
 
-def _flush(study: Any) -> None:
-    flush = getattr(study._storage, "flush", None)
-    if flush is not None:
-        flush()
+class _PruningHook:
+    """Hands each report to optuna's trial and asks its pruner; keeps the reports for the record."""
+
+    def __init__(self, trial: Any) -> None:
+        self.trial = trial
+        self.reports: dict[int, float] = {}
+
+    def __call__(self, step: int, value: float) -> bool:
+        self.reports[step] = value
+        self.trial.report(value, step)
+        return bool(self.trial.should_prune())
 
 
-def _pruning_hook(trial: Any) -> Callable[[int, float], bool]:
-    def should_prune(step: int, value: float) -> bool:
-        trial.report(value, step)
-        return bool(trial.should_prune())
-
-    return should_prune
-
-
-def _record(study: Any, trial: Any, outcome: Outcome, seconds: float, objective: Any = None) -> str:
-    storage = study._storage
+def _record(study: SearchStudy, trial: Any, outcome: Outcome, seconds: float, reports: dict[int, float],
+            objective: Any = None) -> str:
     if outcome.kind == "complete" and outcome.result is not None:
         result = outcome.result
-        storage.set_trial_user_attr(trial._trial_id, "fold_scores", result.fold_scores)
+        trial.set_user_attr(keys.FOLD_SCORES, result.fold_scores)
         for key, value in result.extras.items():
-            storage.set_trial_user_attr(trial._trial_id, key, value)
-        storage.set_trial_user_attr(trial._trial_id, "cpu_seconds", outcome.cpu_seconds)
-        study.tell(trial, result.value)
+            trial.set_user_attr(key, value)
+        trial.set_user_attr(keys.CPU_SECONDS, outcome.cpu_seconds)
+        study.study.tell(trial, result.value)
         return "complete"
     if outcome.kind == "pruned":
-        # How far it got and what it cost, so a pruned trial's saving can be read back.
+        # How far it got and what it cost, so a pruned trial's saving can be read back; the folds it
+        # finished, so it can be compared with other trials on the same folds.
         describe = getattr(objective, "describe_step", None)
         words = f" ({describe(outcome.last_step)})" if describe is not None else ""
-        storage.set_trial_user_attr(trial._trial_id, "fidelity", f"step {outcome.last_step}{words}")
-        storage.set_trial_user_attr(trial._trial_id, "seconds", seconds)
-        storage.set_trial_user_attr(trial._trial_id, "cpu_seconds", outcome.cpu_seconds)
-        study.tell(trial, state=TrialState.PRUNED)
+        trial.set_user_attr(keys.FIDELITY, f"step {outcome.last_step}{words}")
+        trial.set_user_attr(keys.SECONDS, seconds)
+        trial.set_user_attr(keys.CPU_SECONDS, outcome.cpu_seconds)
+        folds = fold_scores_from_reports(reports)
+        if folds:
+            trial.set_user_attr(keys.FOLD_SCORES, folds)
+        study.study.tell(trial, state=TrialState.PRUNED)
         return "pruned"
     if outcome.kind == "failed":
-        storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, "failed")
-        storage.set_trial_user_attr(trial._trial_id, "error", outcome.error)
-        study.tell(trial, state=TrialState.FAIL)
+        trial.set_user_attr(keys.STATE, keys.FAILED)
+        trial.set_user_attr(keys.ERROR, outcome.error)
+        study.study.tell(trial, state=TrialState.FAIL)
         return "failed"
-    _mark_interrupted(study, trial)
-    return INTERRUPTED
+    study.mark_interrupted(trial.number)
+    return keys.INTERRUPTED
 
 
-def _mark_orphans_interrupted(study: Any) -> int:
+def _mark_orphans_interrupted(study: SearchStudy) -> int:
     """Record as interrupted the trials this process started but holds no handle on.
 
-    A stop can land inside ``study.ask()`` after the trial row is written and before the loop
+    A stop can land inside ``ask()`` after the trial row is written and before the loop
     holds the trial (seen under load: Ctrl-C left one trial RUNNING).  The storage knows which
     trials this process runs, so none is left for the next launch's recovery to find.
     """
-    running_here = getattr(study._storage, "running_here", None)
-    if running_here is None:
-        return 0
     marked = 0
-    for number in running_here():
+    for number in study.running_here():
         try:
-            trial_id = study._storage.get_trial_id_from_study_id_trial_number(study._study_id, number)
-            study._storage.set_trial_user_attr(trial_id, STATE_ATTR, INTERRUPTED)
-            study.tell(number, state=TrialState.FAIL)
-            marked += 1
-        except Exception:  # noqa: BLE001 - finished meanwhile, or the store is gone: recovery handles it
+            marked += study.mark_interrupted(number)
+        except Exception:  # noqa: BLE001 - the store is gone: the next launch's recovery handles it
             continue
     return marked
-
-
-def _mark_interrupted(study: Any, trial: Any) -> bool:
-    """Record a running trial as interrupted; False when it had already been recorded (a stop between steps)."""
-    if study._storage.get_trial(trial._trial_id).state.is_finished():
-        return False
-    try:
-        study._storage.set_trial_user_attr(trial._trial_id, STATE_ATTR, INTERRUPTED)
-        study.tell(trial, state=TrialState.FAIL)
-    except UpdateFinishedTrialError:  # another worker recovered it meanwhile
-        return False
-    return True
 
 
 def _stop_reason(now: float, deadline: float | None, left_cpu: float | None, heartbeat: _Heartbeat,
@@ -310,30 +341,24 @@ def _fastest_family(durations: dict[str, list[float]]) -> float | None:
     return min(medians) if medians else None
 
 
-def _past_durations(study: Any) -> dict[str, list[float]]:
+def _past_durations(study: SearchStudy) -> dict[str, list[float]]:
     out: dict[str, list[float]] = {}
-    for t in study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,)):
+    for t in study.frozen(states=(TrialState.COMPLETE,)):
         if t.duration is not None:
             out.setdefault(str(t.params.get("family", "")), []).append(t.duration.total_seconds())
     return out
 
 
-def _progress(study: Any, started: float, box: float | None, counts: dict[str, int], kind: str,
-              outcome: Outcome) -> Progress:
-    return Progress(started=started, box_seconds=box, trials=sum(counts.values()), counts=dict(counts),
-                    best=_best_value(study), last_state=kind)
-
-
-def _best_value(study: Any) -> float | None:
+def _best_value(study: SearchStudy) -> float | None:
     try:
-        return float(study.best_value)
+        return float(study.study.best_value)
     except ValueError:
         return None
 
 
-def _fill_best(summary: SearchSummary, study: Any) -> None:
+def _fill_best(summary: SearchSummary, study: SearchStudy) -> None:
     try:
-        best = study.best_trial
+        best = study.study.best_trial
     except ValueError:
         return
     summary.best_value, summary.best_trial = float(best.value), best.number

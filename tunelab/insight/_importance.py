@@ -64,6 +64,8 @@ from optuna.distributions import (
 )
 
 from tunelab.errors import InputError
+from tunelab.space import ParamSpec
+from tunelab.store import TrialRecord
 
 Direction = Literal["maximize", "minimize"]
 Method = Literal["fanova", "ped-anova"]
@@ -84,37 +86,6 @@ _MIN_DEPTH, _MAX_DEPTH = 5, 10
 _CALL_SECONDS = 15e-6
 _LEAF_SECONDS = 1.0e-4
 _FANOVA_SECONDS = 4.0  # the deepest trees whose estimate fits this are used
-
-
-@dataclass(frozen=True)
-class TrialRecord:
-    """One finished trial, as the importance table needs it.
-
-    Parameters
-    ----------
-    number
-        The trial number in its study.
-    params
-        Only the parameters this trial actually sampled (a conditional parameter is absent from
-        the trials of other families).
-    value
-        The metric value, raw, in metric units.
-    state
-        ``"complete"``, or ``"pruned"``: then ``value`` is the last intermediate value at the
-        highest fidelity the trial reached.
-    """
-
-    number: int
-    params: dict[str, Any]
-    value: float
-    state: str = "complete"
-
-    def __post_init__(self) -> None:
-        if self.state not in ("complete", "pruned"):
-            raise InputError(
-                f"trial {self.number} has state '{self.state}'; only complete and pruned trials have a score",
-                "leave failed and interrupted trials out of the importance table",
-            )
 
 
 @dataclass(frozen=True)
@@ -346,7 +317,7 @@ class ImportanceReport:
 
 def importance_table(
     trials: Sequence[TrialRecord],
-    distributions: Mapping[str, BaseDistribution],
+    distributions: Mapping[str, Any],
     *,
     direction: Direction,
     method: Method = "fanova",
@@ -411,8 +382,9 @@ def importance_table(
     if not 0.0 < top_quantile < 1.0:
         raise InputError(f"top quantile must be between 0 and 1, got {top_quantile}", "try 0.1 or 0.25")
 
+    distributions = _as_distributions(distributions)
     states = ("complete", "pruned") if include_pruned else ("complete",)
-    finished = [t for t in trials if t.state in states and math.isfinite(float(t.value))]
+    finished = [t for t in trials if t.state in states and t.value is not None and math.isfinite(float(t.value))]
     families = _family_choices(distributions)
     if family is not None and family not in families:
         known = ", ".join(str(f) for f in families) or "none"
@@ -433,6 +405,16 @@ def importance_table(
             share = _group_share(group, len(finished), len(families))
             needed = max(needed, math.ceil(note.trials_needed / share))
     return ImportanceReport(tuple(rows), tuple(notes), method, direction, n_bootstrap, depth, needed)
+
+
+def _as_distributions(space: Mapping[str, Any]) -> dict[str, BaseDistribution]:
+    """The parameters as optuna distributions (the evaluators' input); fixed parameters left out."""
+    out: dict[str, BaseDistribution] = {}
+    for name, spec in space.items():
+        dist = spec.distribution() if isinstance(spec, ParamSpec) else spec
+        if dist is not None:
+            out[name] = dist
+    return out
 
 
 # ------------------------------------------------------------------------------- grouping

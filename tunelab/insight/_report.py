@@ -16,6 +16,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Literal
 
+from tunelab.values import format_duration
+
 if TYPE_CHECKING:  # types only: the page is built from plain values
     from tunelab.insight._importance import ImportanceReport
     from tunelab.space import SpaceSpec
@@ -205,8 +207,6 @@ def _facts(d: ReportData) -> str:
 
 
 def _budget_words(spent: float, box: float | None, cap: str) -> str:
-    from tunelab.engine import format_duration
-
     if box is None:
         return f"{format_duration(spent)} used (no {cap})"
     left = max(0.0, box - spent)

@@ -7,11 +7,13 @@ import statistics
 from dataclasses import asdict, dataclass
 from typing import Any, Mapping
 
-from tunelab.engine import ROUNDS_ATTR, Clock, SystemClock, trial_state
+from tunelab.engine import Clock, SystemClock
+from tunelab.values import plain
 from tunelab.errors import InputError, StudyStateError
-from tunelab.insight import ImportanceReport, Thresholds, TrialRecord, importance_table
-from tunelab.space import SpaceSpec
-from tunelab.store import Store, StudyRecord
+from tunelab.insight import ImportanceReport, Thresholds, importance_table
+from tunelab.ops._trials import Phases
+from tunelab.space import ParamSpec, SpaceSpec
+from tunelab.store import Store, StudyRecord, TrialRecord
 
 # Smallest score change worth tuning for, by metric (common practice, no source); None = relative.
 METRIC_TOLERANCE: dict[str, float | None] = {"roc_auc": 0.002, "accuracy": 0.002, "r2": 0.002,
@@ -25,7 +27,7 @@ def study_importance(name: str, *, store: str | None = None, method: str = "fano
         raise InputError(f"unknown importance method '{method}'", "use fanova or ped-anova")
     with Store.open(store) as st:
         record = st.get_study(name)
-        trials, distributions, notes = _records(st, record)
+        trials, distributions, notes = study_records(st, record)
     if not any(t.state == "complete" for t in trials):
         raise StudyStateError(f"study '{name}' has no finished trials yet, so nothing to rank",
                               f"run more trials: tunelab resume {name} --extend 10m")
@@ -82,60 +84,47 @@ def freeze_parameters(name: str, assignments: Mapping[str, str], *, auto: bool =
             if space.lookup(row.param).kind == "fixed":  # type: ignore[union-attr]
                 continue
             if row.action in ("freeze", "no measurable effect") and row.best_value is not None:
-                frozen[row.param] = _plain(row.best_value)
+                frozen[row.param] = plain(row.best_value)
                 reasons[row.param] = row.verdict
     if not frozen:
         raise StudyStateError(f"no parameter of study '{name}' can be frozen yet",
                               "every parameter still matters, or more trials are needed (see `tunelab importance`)")
     narrowed = space.freeze(frozen, reason="frozen after importance")
     with Store.open(store) as st:
-        first = _trial_count(st, record)
+        first = len(st.trials(record))
         why = "; ".join(f"{p}={frozen[p]} ({reasons[p]})" for p in frozen)
         phase = st.add_phase(record.id, now=clock.now(), reason=f"froze {why}", space_json=narrowed.to_json(),
                              first_trial=first)
     return FreezeResult(record.name, phase, frozen, reasons, first)
 
 
-def _records(st: Store, record: StudyRecord) -> tuple[list[TrialRecord], dict[str, Any], tuple[str, ...]]:
-    import optuna
+def study_records(st: Store, record: StudyRecord) -> tuple[list[TrialRecord], dict[str, ParamSpec], tuple[str, ...]]:
+    """A study's scored trials (complete, and pruned at the fidelity they reached), every parameter
+    searched in any phase, and notes on reading the table."""
+    phases = Phases.of(st, record)
+    distributions = phases.distributions()
+    trials = st.trials(record)
+    return scored_records(trials, distributions), distributions, _ceiling_notes(trials, distributions)
 
-    study = optuna.load_study(study_name=record.name, storage=st.optuna_storage())
-    distributions = _distributions(st, record)
-    study_trials = study.get_trials(deepcopy=False)
-    return _trial_records(study_trials, distributions), distributions, _ceiling_notes(study_trials, distributions)
 
-
-def _ceiling_notes(study_trials: Any, distributions: Mapping[str, Any]) -> tuple[str, ...]:
+def _ceiling_notes(trials: list[TrialRecord], distributions: Mapping[str, Any]) -> tuple[str, ...]:
     """Say which rows are ceilings: boosting keeps the rounds its first fold scored best."""
     used: dict[str, list[float]] = {}
-    for t in study_trials:
-        rounds = t.user_attrs.get(ROUNDS_ATTR)
+    for t in trials:
         family = t.params.get("family")  # absent when the space has one family
         for key, ceiling in t.params.items():
-            if (rounds is not None and key.endswith(".max_iter") and key in distributions and ceiling
+            if (t.rounds is not None and key.endswith(".max_iter") and key in distributions and ceiling
                     and (family is None or key == f"{family}.max_iter")):
-                used.setdefault(key, []).append(float(rounds) / float(ceiling))
+                used.setdefault(key, []).append(float(t.rounds) / float(ceiling))
     return tuple(f"{key} is a ceiling, not the rounds used: each trial kept the rounds its first fold scored best "
                  f"(median {statistics.median(shares):.0%} of the ceiling over {len(shares)} trials)"
                  for key, shares in sorted(used.items()))
 
 
-def _distributions(st: Store, record: StudyRecord) -> dict[str, Any]:
-    distributions: dict[str, Any] = {}
-    for phase in st.phases(record.id):  # earlier (wider) phases win
-        for key, dist in SpaceSpec.from_json(phase.space_json).distributions().items():
-            distributions.setdefault(key, dist)
-    return distributions
-
-
-def _trial_records(study_trials: Any, distributions: Mapping[str, Any]) -> list[TrialRecord]:
-    trials = []
-    for t in study_trials:
-        state = trial_state(t)
-        if state in ("complete", "pruned") and t.value is not None:
-            params = {k: v for k, v in t.params.items() if k in distributions}
-            trials.append(TrialRecord(number=t.number, params=params, value=float(t.value), state=state))
-    return trials
+def scored_records(trials: list[TrialRecord], distributions: Mapping[str, Any]) -> list[TrialRecord]:
+    """The trials with a score, their parameters narrowed to the searched ones."""
+    return [dataclasses.replace(t, params={k: v for k, v in t.params.items() if k in distributions})
+            for t in trials if t.scored]
 
 
 def _families(distributions: Mapping[str, Any]) -> list[str]:
@@ -143,12 +132,6 @@ def _families(distributions: Mapping[str, Any]) -> list[str]:
     if fam is not None:
         return [str(c) for c in fam.choices]
     return sorted({k.split(".", 1)[0] for k in distributions if "." in k and not k.startswith("prep.")})
-
-
-def _trial_count(st: Store, record: StudyRecord) -> int:
-    import optuna
-
-    return len(optuna.load_study(study_name=record.name, storage=st.optuna_storage()).get_trials(deepcopy=False))
 
 
 def _parse_value(space: SpaceSpec, param: str, raw: str) -> Any:
@@ -177,5 +160,3 @@ def _parse_value(space: SpaceSpec, param: str, raw: str) -> Any:
     return value
 
 
-def _plain(value: Any) -> Any:
-    return value.item() if hasattr(value, "item") else value

@@ -14,13 +14,14 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any, Mapping
 
-from tunelab.data._similarity import meta_distance
+from tunelab.data import meta_distance
 from tunelab.errors import InputError
-from tunelab.space import SpaceSpec, carry_configs
-from tunelab.store import Store, resolve
+from tunelab.ops._trials import Phases
+from tunelab.space import carry_configs
+from tunelab.store import Store, best_of, keys, ranked, resolve
 
 LEARN_TOP = 3  # best complete trials carried from each earlier study (common practice, no source)
-LEARNED_ATTR = "tl_learned_from"
+LEARNED_ATTR = keys.LEARNED_FROM
 SIMILARITY_KEY = "similarity"  # the study settings entry that holds its meta-feature vector
 
 
@@ -46,9 +47,6 @@ def nearest_studies(store: Store, vector: Mapping[str, float], task: str, count:
     Studies with no complete trial, and studies run with a ``--space`` file (no meta-features stored),
     are not candidates.
     """
-    from optuna.trial import TrialState
-
-    storage = store.optuna_storage()
     found: list[Neighbour] = []
     for record in store.list_studies():
         theirs = record.settings.get(SIMILARITY_KEY)
@@ -57,9 +55,7 @@ def nearest_studies(store: Store, vector: Mapping[str, float], task: str, count:
         distance = meta_distance(vector, theirs)
         if distance is None:
             continue
-        trials = storage.get_all_trials(storage.get_study_id_from_name(record.name), deepcopy=False,
-                                        states=(TrialState.COMPLETE,))
-        if any(t.value is not None for t in trials):
+        if best_of(store.trials(record), record.direction) is not None:
             found.append(Neighbour(record.name, distance))
     return sorted(found, key=lambda n: (n.distance, n.study))[:count]
 
@@ -101,15 +97,10 @@ def learn_from(store: Store, names: list[str], space: SpaceSpec, task: str,
 
 
 def _best_configs(store: Store, name: str, direction: str) -> list[dict[str, Any]]:
-    from optuna.trial import TrialState
-
-    storage = store.optuna_storage()
-    trials = storage.get_all_trials(storage.get_study_id_from_name(name), deepcopy=False,
-                                    states=(TrialState.COMPLETE,))
-    trials = sorted((t for t in trials if t.value is not None), key=lambda t: t.value,
-                    reverse=direction == "maximize")
+    record = store.get_study(name)
+    trials = ranked(store.trials(record), direction)
     if not trials:
         raise InputError(f"study '{name}' has no complete trial to learn from",
                          f"give it time with `tunelab resume {name}`, or leave out --learn-from")
-    earlier = SpaceSpec.from_json(store.phases(store.get_study(name).id)[-1].space_json)
+    earlier = Phases.of(store, record).current
     return [earlier.complete(t.params) for t in trials]

@@ -17,6 +17,7 @@ from tunelab.data import Dataset, load_dataset
 from tunelab.data._metafeatures import MetaFeatures, compute_metafeatures
 from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
 from tunelab.space import SpaceSpec, numeric_map_choices, probe_transforms
+from tunelab.values import plain
 from tunelab.space._builder import build_space, numeric_shares_one_scale
 
 # Meta-feature effort: landmarkers on at most this many rows, each stopped after this many seconds,
@@ -102,7 +103,7 @@ class ProfileReport:
         return {
             "path": self.path, "target": self.target, "task": self.task, "rows": self.n_rows,
             "columns": [c.to_dict() for c in self.columns],
-            "classes": [_plain(c) for c in self.classes],
+            "classes": [plain(c) for c in self.classes],
             "meta_features": self.meta.to_dict(),
             "space": self.space.to_dict(),
             "budget_seconds": self.budget_seconds,
@@ -216,10 +217,6 @@ def _treatment(role: str, n_unique: int, missing_share: float) -> str:
     if role == "text":
         return "TF-IDF; SVD components for non-linear models"
     return "year, month, weekday, hour, day count"
-
-
-def _plain(value: Any) -> Any:
-    return value.item() if hasattr(value, "item") else value
 
 
 __all__ = ["ColumnProfile", "ProfileReport", "built_space", "profile_data", "profile_metafeatures", "profiled_space"]

@@ -10,7 +10,7 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
 
-from tunelab.engine import ROUNDS_ATTR, Clock, SystemClock, settled_config, trial_state
+from tunelab.engine import Clock, SystemClock
 from tunelab.errors import InputError, TunelabError
 from tunelab.insight import (
     GENERATOR,
@@ -20,16 +20,13 @@ from tunelab.insight import (
     ImportanceReport,
     ReportData,
     Thresholds,
-    TrialRecord,
     importance_table,
     render_report,
     space_reasons,
 )
-from tunelab.ops._insight import METRIC_TOLERANCE, _distributions, _trial_records
-from tunelab.space import SpaceSpec
-from tunelab.store import Store, StudyRecord, utc_iso
-
-_COUNTED = ("complete", "pruned", "failed", "interrupted", "running", "waiting")
+from tunelab.ops._insight import METRIC_TOLERANCE, scored_records
+from tunelab.ops._trials import Phases
+from tunelab.store import TRIAL_STATES, Store, StudyRecord, TrialRecord, best_of, utc_iso
 
 
 @dataclass
@@ -81,56 +78,37 @@ def write_report(name: str, *, store: str | None = None, out: Path | None = None
 def report_data(name: str, *, store: str | None = None, clock: Clock | None = None) -> ReportData:
     """Everything the report shows, read from the store as plain values (importance included)."""
     clock = clock or SystemClock()
-    import optuna
-
     with Store.open(store) as st:
         record = st.get_study(name)
-        phases = st.phases(record.id)
+        phases = Phases.of(st, record)
         launches = st.launches(record.id)
         wall, cpu = st.spent(record.id)
-        try:
-            trials = optuna.load_study(study_name=record.name, storage=st.optuna_storage()).get_trials(deepcopy=False)
-        except KeyError:  # the study row exists but its trial tables were never created
-            trials = []
-        distributions = _distributions(st, record)
-    records = _trial_records(trials, distributions)
-    spaces = {p.number: SpaceSpec.from_json(p.space_json) for p in phases}
-    first_phase = min(spaces)
-
-    def config_of(t: Any) -> dict[str, Any]:
-        # The trial's phase fills in what its space held fixed (one family, frozen knobs), as export does.
-        space = spaces.get(int(t.user_attrs.get("tl_phase", first_phase)), spaces[first_phase])
-        return settled_config(space.complete(t.params), t.user_attrs.get(ROUNDS_ATTR))
-
-    counts = {s: 0 for s in _COUNTED}
+        trials = st.trials(record)
+    distributions = phases.distributions()
+    counts = {s: 0 for s in TRIAL_STATES}
     points: list[ChartPoint] = []
     families: dict[str, dict[str, Any]] = {  # every family searched, tried or not
-        fam: _empty_family() for number in sorted(spaces) for fam in spaces[number].families}
-    best: Any = None
+        fam: _empty_family() for number in sorted(phases.spaces) for fam in phases.spaces[number].families}
     maximize = record.direction == "maximize"
+
     def better(value: float, than: float | None) -> bool:
         return than is None or (value > than if maximize else value < than)
 
     for t in trials:
-        state = trial_state(t)
-        counts[state] += 1
-        scored = t.value is not None and math.isfinite(t.value)
-        if state in ("complete", "pruned") and scored:
-            points.append(ChartPoint(t.number, float(t.value), state))  # type: ignore[arg-type]
-        if state in ("running", "waiting"):
+        counts[t.state] += 1
+        if t.scored:
+            points.append(ChartPoint(t.number, float(t.value), t.state))  # type: ignore[arg-type]
+        if t.state in ("running", "waiting"):
             continue
-        family = str(config_of(t).get("family", ""))
+        family = phases.family(t)
         if family:
             line = families.setdefault(family, _empty_family())
             line["trials"] += 1
-            line[state] = line.get(state, 0) + 1
-            if state == "complete" and scored and better(t.value, line["best"]):
-                line["best"], line["at"] = float(t.value), t.number
-        if state == "complete" and scored and better(t.value, None if best is None else best.value):
-            best = t
-
-    importance, note = _importance(record, records, distributions)
-    current = spaces[max(spaces)]
+            line[t.state] = line.get(t.state, 0) + 1
+            if t.state == "complete" and t.scored and better(float(t.value), line["best"]):  # type: ignore[arg-type]
+                line["best"], line["at"] = float(t.value), t.number  # type: ignore[arg-type]
+    best = best_of(trials, record.direction)
+    importance, note = _importance(record, scored_records(trials, distributions), distributions)
     return ReportData(
         study=record.name, data_path=record.data_path, target=record.target, task=record.task, metric=record.metric,
         direction=record.direction,  # type: ignore[arg-type]
@@ -139,11 +117,11 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
         last_activity=max((ln.heartbeat_at for ln in launches), default=None), launches=len(launches),
         wall_spent=wall, wall_budget=record.budget_wall, cpu_spent=cpu, cpu_budget=record.budget_cpu,
         trials_cap=record.budget_trials, counts=counts,
-        best=None if best is None else BestTrial(best.number, float(best.value), best.user_attrs.get("fold_std"),
-                                                 str(config_of(best).get("family", "")), config_of(best)),
+        best=None if best is None else BestTrial(best.number, float(best.value), best.fold_std,  # type: ignore[arg-type]
+                                                 phases.family(best), phases.config(best)),
         points=points, families=_family_lines(families, maximize),
-        importance=importance, importance_note=note, reasons=space_reasons(current),
-        phases=[(p.number, p.first_trial, p.reason) for p in phases], written_at=utc_iso(clock.now()),
+        importance=importance, importance_note=note, reasons=space_reasons(phases.current),
+        phases=[(p.number, p.first_trial, p.reason) for p in phases.records], written_at=utc_iso(clock.now()),
     )
 
 

@@ -5,37 +5,38 @@ from __future__ import annotations
 import os
 import re
 import signal
-import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable
 
-from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset
+from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset, similarity_vector
 from tunelab.engine import (
-    ROUNDS_ATTR,
     Budget,
     Clock,
     CrossValidationObjective,
     ForkRunner,
+    InProcessRunner,
     Progress,
     SearchSettings,
+    SearchStudy,
     SearchSummary,
     SystemClock,
     fold_count,
     make_pruner,
+    make_sampler,
+    open_search_study,
     resolve_metric,
     search,
     settled_config,
 )
 from tunelab.errors import InputError, StudyStateError
-from tunelab.data._similarity import similarity_vector
+from tunelab.models import FAMILIES, preload
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
 from tunelab.ops._profile import profile_metafeatures, profiled_space
 from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
-from tunelab.models import preload
 from tunelab.space import SpaceSpec
-from tunelab.store import Store, StudyRecord
+from tunelab.store import Store, StudyRecord, keys
 
 
 THREADS_PER_TRIAL = 1
@@ -135,11 +136,11 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
                       **({SIMILARITY_KEY: similarity} if similarity else {})},
             space_json=space.to_json(), space_reason=space.family_reason or "initial search space",
         )
-        study = _optuna_study(store, record, launch_number=0, create=True)
+        study = open_search_study(store, record, launch_number=0, create=True)
         for source, config in learned.configs:
-            study.enqueue_trial(config, user_attrs={"tl_warm_start": True, LEARNED_ATTR: source})
+            study.queue(config, **{keys.WARM_START: True, LEARNED_ATTR: source})
         for config in space.warm_starts:
-            study.enqueue_trial(dict(config), user_attrs={"tl_warm_start": True})
+            study.queue(config, **{keys.WARM_START: True})
         return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
                        clock=clock, announce=announce,
                        on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
@@ -182,8 +183,8 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
         phases = st.phases(record.id)
         space = SpaceSpec.from_json(phases[-1].space_json)
         launches = len(st.launches(record.id))
-        study = _optuna_study(st, record, launch_number=launches, create=False,
-                              salt=os.getpid() if kind == "worker" else 0)
+        study = open_search_study(st, record, launch_number=launches, create=False,
+                                  salt=os.getpid() if kind == "worker" else 0)
         settings = settings or SearchSettings()
         settings.phase = phases[-1].number
         settings.kind = kind
@@ -193,7 +194,7 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
                        jobs=jobs, notes=dataset.notes)
 
 
-def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, space: SpaceSpec, budget: Budget, *,
+def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec, budget: Budget, *,
             dataset_path: Path,
             clock: Clock, announce: Announce | None, on_progress: OnProgress | None,
             runner_factory: Callable[[Any], Any], settings: SearchSettings | None, resumed: bool, jobs: int,
@@ -221,20 +222,21 @@ def _launch(store: Store, record: StudyRecord, study: Any, dataset: Dataset, spa
                 if summary.exit_code:
                     group.signal_all(signal.SIGTERM)
                 group.wait(timeout=_worker_grace(budget))
-            _add_worker_counts(store, record, study, summary, group.pids)
+            _add_worker_counts(store, record, summary, group.pids)
         else:
             summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
                              on_progress=on_progress)
-    best: dict[str, Any] = {}
-    if summary.best_trial is not None:
-        best = _best_config(study.trials[summary.best_trial], space)
-    return RunResult(record.name, store.location.display(), record.metric, record.direction, summary, best)
+    return RunResult(record.name, store.location.display(), record.metric, record.direction, summary,
+                     _best_config(store, record, summary, space))
 
 
-def _best_config(trial: Any, space: SpaceSpec) -> dict[str, Any]:
+def _best_config(store: Store, record: StudyRecord, summary: SearchSummary, space: SpaceSpec) -> dict[str, Any]:
     """The best trial's sampled parameters, and the boosting rounds its cross-validation used."""
+    trial = next((t for t in store.trials(record) if t.number == summary.best_trial), None)
+    if trial is None:
+        return {}
     config = space.complete(trial.params)
-    settled = settled_config(config, trial.user_attrs.get(ROUNDS_ATTR))
+    settled = settled_config(config, trial.rounds)
     return {k: v for k, v in settled.items() if k in trial.params or v != config.get(k)}
 
 
@@ -258,60 +260,20 @@ def _expected_trials(space: SpaceSpec, budget: Budget, jobs: int) -> float | Non
     return float(budget.trials) if by_time is None else min(float(budget.trials), by_time)
 
 
-def _optuna_study(store: Store, record: StudyRecord, *, launch_number: int, create: bool, salt: int = 0) -> Any:
-    """Load (or create) the optuna study with a seeded sampler.
-
-    ``salt`` separates the random streams of workers that join at the same moment (they would
-    otherwise see the same launch count and draw the same start-up configs).
-    """
-    import optuna
-
-    sampler = make_sampler(record.settings.get("sampler", "tpe"), (record.seed + launch_number + salt) % (2**32))
-    n_folds = int(record.settings.get("n_folds", 5))
-    pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
-                         expected_trials=record.settings.get("expected_trials"))
-    optuna.logging.set_verbosity(optuna.logging.WARNING)  # tunelab reports study creation itself
-    storage = store.optuna_storage()
-    if create:
-        return optuna.create_study(storage=storage, study_name=record.name, direction=record.direction,
-                                   sampler=sampler, pruner=pruner)
-    return optuna.load_study(study_name=record.name, storage=storage, sampler=sampler, pruner=pruner)
-
-
 def _worker_grace(budget: Budget) -> float:
     """How long the parent waits for workers after its own loop ends: their last trial plus margin."""
     return 60.0 if budget.wall_seconds is None else max(10.0, 0.05 * budget.wall_seconds + 10.0)
 
 
-def _add_worker_counts(store: Store, record: StudyRecord, study: Any, summary: SearchSummary, pids: list[int]) -> None:
+def _add_worker_counts(store: Store, record: StudyRecord, summary: SearchSummary, pids: list[int]) -> None:
     """Fold the worker processes' trials into the launch summary, so the user sees the whole run."""
-    from tunelab.engine import trial_state
-    from tunelab.engine._recovery import LAUNCH_ATTR
-
     ids = {ln.id for ln in store.launches(record.id) if ln.pid in pids and ln.kind == "worker"}
-    for trial in study.get_trials(deepcopy=False):
-        if trial.user_attrs.get(LAUNCH_ATTR) in ids:
-            state = trial_state(trial)
-            if state in summary.counts:
-                summary.counts[state] += 1
-    try:
-        best = study.best_trial
-        summary.best_value, summary.best_trial = float(best.value), best.number
-    except ValueError:
-        pass
-
-
-def make_sampler(kind: str, seed: int) -> Any:
-    """TPE (multivariate, grouped for the conditional space, constant liar for parallel workers) or random."""
-    import optuna
-
-    if kind == "random":
-        return optuna.samplers.RandomSampler(seed=seed)
-    if kind != "tpe":
-        raise InputError(f"unknown sampler '{kind}'", "use tpe or random")
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", optuna.exceptions.ExperimentalWarning)
-        return optuna.samplers.TPESampler(seed=seed, multivariate=True, group=True, constant_liar=True)
+    for trial in store.trials(record):
+        if trial.launch in ids and trial.state in summary.counts:
+            summary.counts[trial.state] += 1
+    best = store.best_trial(record)
+    if best is not None:
+        summary.best_value, summary.best_trial = best.value, best.number
 
 
 def create_objective_study(name: str, space: SpaceSpec, budget: Budget, *, store: str | None = None,
@@ -329,7 +291,7 @@ def create_objective_study(name: str, space: SpaceSpec, budget: Budget, *, store
             budget_cpu=budget.cpu_seconds, budget_trials=budget.trials,
             settings={"pruning": pruning, "sampler": sampler, "n_folds": 1}, space_json=space.to_json(),
             space_reason="objective study")
-        _optuna_study(st, record, launch_number=0, create=True)
+        open_search_study(st, record, launch_number=0, create=True)
         return record
 
 
@@ -337,23 +299,21 @@ def join_objective_study(name: str, objective: Any, *, store: str | None = None,
                          runner_factory: Callable[[Any], Any] | None = None, settings: SearchSettings | None = None,
                          on_progress: OnProgress | None = None, kind: str = "run") -> RunResult:
     """Work on an objective study until its budget is spent (several processes may join at once)."""
-    from tunelab.engine import InProcessRunner
-
     clock = clock or SystemClock()
     with Store.open(store) as st:
         record = st.get_study(name)
         space = SpaceSpec.from_json(st.phases(record.id)[-1].space_json)
         budget = Budget(record.budget_wall, record.budget_cpu, record.budget_trials)
-        study = _optuna_study(st, record, launch_number=len(st.launches(record.id)),
-                              create=False, salt=os.getpid() if kind == "worker" else 0)
+        study = open_search_study(st, record, launch_number=len(st.launches(record.id)),
+                                  create=False, salt=os.getpid() if kind == "worker" else 0)
         settings = settings or SearchSettings()
         settings.kind = kind
         runner = (runner_factory or InProcessRunner)(objective)
         with stop_on_signals():
             summary = search(st, record, study, space, runner, budget, clock=clock, settings=settings,
                              on_progress=on_progress)
-        best = _best_config(study.trials[summary.best_trial], space) if summary.best_trial is not None else {}
-        return RunResult(record.name, st.location.display(), record.metric, record.direction, summary, best)
+        return RunResult(record.name, st.location.display(), record.metric, record.direction, summary,
+                         _best_config(st, record, summary, space))
 
 
 def run_objective_study(name: str, objective: Any, space: SpaceSpec, budget: Budget, *, store: str | None = None,
@@ -389,8 +349,6 @@ def _load_space(path: Path) -> SpaceSpec:
 
 
 def _check_space_fits(space: SpaceSpec, dataset: Dataset) -> None:
-    from tunelab.models import FAMILIES
-
     unknown = [f for f in space.families if f not in FAMILIES]
     if unknown:
         raise InputError(f"search space names unknown families: {', '.join(unknown)}",

@@ -13,12 +13,13 @@ import pandas as pd
 
 from tunelab import __version__
 from tunelab.data import clean_column, load_dataset, read_table
-from tunelab.engine import ROUNDS_ATTR, Clock, SystemClock, settled_config, trial_state
+from tunelab.engine import Clock, SystemClock
+from tunelab.values import plain
 from tunelab.errors import InputError, ModelFileError, StudyStateError
 from tunelab.models import build_pipeline, capped_rows, row_cap
-from tunelab.models._model_file import check_columns, load_pipeline, read_meta, write_model_file
-from tunelab.space import SpaceSpec
-from tunelab.store import Store
+from tunelab.models import check_columns, load_pipeline, read_meta, write_model_file
+from tunelab.ops._trials import Phases
+from tunelab.store import Store, best_of
 
 
 @dataclass
@@ -49,8 +50,6 @@ class PredictResult:
 def export_model(name: str, out: Path, *, store: str | None = None, trial: int | None = None,
                  clock: Clock | None = None) -> ExportResult:
     """Refit the best (or a chosen) trial's pipeline on all rows and write a model file."""
-    import optuna
-
     clock = clock or SystemClock()
     if out.exists() and out.is_dir():
         raise InputError(f"--out {out} is a folder", "pass a file path such as model.zip")
@@ -58,25 +57,19 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
         raise InputError(f"folder {out.parent} does not exist", "create it, or choose another --out")
     with Store.open(store) as st:
         record = st.get_study(name)
-        study = optuna.load_study(study_name=record.name, storage=st.optuna_storage())
-        done = [t for t in study.get_trials(deepcopy=False) if trial_state(t) == "complete"]
-        if not done:
+        trials = st.trials(record)
+        chosen = best_of(trials, record.direction)
+        if chosen is None:
             raise StudyStateError(f"study '{name}' has no finished trial to export",
                                   f"give it more budget: tunelab resume {name} --extend 10m")
-        if trial is None:
-            pick = max if record.direction == "maximize" else min
-            chosen = pick(done, key=lambda t: t.value)
-        else:
-            matches = [t for t in done if t.number == trial]
+        if trial is not None:
+            matches = [t for t in trials if t.number == trial and t.state == "complete"]
             if not matches:
                 raise InputError(f"trial {trial} of study '{name}' is not a finished trial",
                                  f"see the finished trials with `tunelab status {name}`")
             chosen = matches[0]
         dataset = load_dataset(Path(record.data_path), record.target, record.task)
-        phases = {p.number: p for p in st.phases(record.id)}
-        phase = phases.get(int(chosen.user_attrs.get("tl_phase", 1)), phases[min(phases)])
-        config = settled_config(SpaceSpec.from_json(phase.space_json).complete(chosen.params),
-                                chosen.user_attrs.get(ROUNDS_ATTR))
+        config = Phases.of(st, record).config(chosen)
         pipeline = build_pipeline(config, dataset.roles, {c.name: c.n_unique for c in dataset.columns},
                                   dataset.task, seed=record.seed, n_threads=1)
         with warnings.catch_warnings():
@@ -85,8 +78,8 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
             pipeline.fit(dataset.X.iloc[rows], dataset.y[rows])  # the size the search measured
         meta = {
             "study": record.name, "trial": chosen.number, "metric": record.metric, "direction": record.direction,
-            "cv_score": chosen.value, "fold_scores": chosen.user_attrs.get("fold_scores"),
-            "task": record.task, "target": record.target, "classes": [_plain(c) for c in dataset.classes],
+            "cv_score": chosen.value, "fold_scores": list(chosen.fold_scores) or None,
+            "task": record.task, "target": record.target, "classes": [plain(c) for c in dataset.classes],
             "columns": list(dataset.X.columns), "dtypes": {c: str(t) for c, t in dataset.X.dtypes.items()},
             "roles": dataset.roles, "config": config, "data_sha256": record.data_sha256,
             "versions": _versions(),
@@ -123,13 +116,8 @@ def _features_like_training(frame: pd.DataFrame, meta: dict[str, Any]) -> pd.Dat
     return pd.DataFrame({c: clean_column(frame[c], meta["roles"][c]) for c in meta["columns"]})
 
 
-def _plain(value: Any) -> Any:
-    return value.item() if isinstance(value, np.generic) else value
-
-
 def _versions() -> dict[str, str]:
-    import optuna
-    import sklearn
+    from importlib.metadata import version
 
-    return {"tunelab": __version__, "python": platform.python_version(), "scikit-learn": sklearn.__version__,
-            "optuna": optuna.__version__, "pandas": pd.__version__, "numpy": np.__version__}
+    return {"tunelab": __version__, "python": platform.python_version(), "scikit-learn": version("scikit-learn"),
+            "optuna": version("optuna"), "pandas": pd.__version__, "numpy": np.__version__}

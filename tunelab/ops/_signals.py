@@ -11,8 +11,7 @@ import signal
 import threading
 from typing import Any, Iterator
 
-from tunelab.engine import StopRequested, clear_stop, request_stop
-from tunelab.engine._stop import holding
+from tunelab.engine import StopRequested, clear_stop, holding, request_stop
 
 _EXIT_CODES = {signal.SIGINT: 130, signal.SIGTERM: 143, signal.SIGHUP: 129}
 

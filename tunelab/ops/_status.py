@@ -5,14 +5,11 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
-from tunelab.engine import ROUNDS_ATTR, settled_config, trial_state
-from tunelab.engine._pruning import choose_pruning
-from tunelab.engine._recovery import RETRY_ATTR
-from tunelab.ops._learn import LEARNED_ATTR
-from tunelab.space import SpaceSpec
-from tunelab.store import Store, StudyRecord
+from tunelab.engine import choose_pruning
+from tunelab.ops._trials import Phases, shown_params
+from tunelab.store import TRIAL_STATES, Store, StudyRecord, TrialRecord, best_of, ranked
 
-STATES = ("complete", "pruned", "failed", "interrupted", "running", "waiting")
+STATES = TRIAL_STATES
 
 
 @dataclass
@@ -72,32 +69,30 @@ class StudyDetail:
 def list_studies(store: str | None) -> list[StudyLine]:
     """Every study in the store, oldest first."""
     with Store.open(store) as st:
-        return [_line(st, record, _trials(st, record)) for record in st.list_studies()]
+        return [_line(st, record, st.trials(record)) for record in st.list_studies()]
 
 
 def study_detail(name: str, store: str | None, top: int = 5) -> StudyDetail:
     """One study: best config, score ± fold spread, the top trials, the budget."""
     with Store.open(store) as st:
         record = st.get_study(name)
-        trials = _trials(st, record)
+        trials = st.trials(record)
         line = _line(st, record, trials)
-        finished = [t for t in trials if trial_state(t) == "complete"]
-        reverse = record.direction == "maximize"
-        ranked = sorted(finished, key=lambda t: t.value, reverse=reverse)
+        best = ranked(trials, record.direction)
         wall, cpu = st.spent(record.id)
         left_wall = None if record.budget_wall is None else max(0.0, record.budget_wall - wall)
         launches = st.launches(record.id)
         workers = [{"launch": ln.id, "kind": ln.kind, "host": ln.host, "pid": ln.pid, "state": ln.state,
                     "started": ln.started_at, "last_heartbeat": ln.heartbeat_at, "trials_done": ln.trials_done,
                     "wall_seconds": round(ln.wall_seconds, 1), "stop_reason": ln.stop_reason} for ln in launches]
-        phases = [{"phase": p.number, "created": p.created_at, "reason": p.reason, "first_trial": p.first_trial}
-                  for p in st.phases(record.id)]
-        space = SpaceSpec.from_json(st.phases(record.id)[-1].space_json)
+        phases = Phases.of(st, record)
         return StudyDetail(line=line, data_path=record.data_path, target=record.target, seed=record.seed,
-                           best_trial=_trial_line(ranked[0]) if ranked else None,
-                           top=[_trial_line(t) for t in ranked[:top]], cpu_spent=cpu, cpu_budget=record.budget_cpu,
-                           wall_left=left_wall, phases=phases, workers=workers, pruning=_pruning_words(record),
-                           families=list(space.families))
+                           best_trial=_trial_line(best[0]) if best else None,
+                           top=[_trial_line(t) for t in best[:top]], cpu_spent=cpu, cpu_budget=record.budget_cpu,
+                           wall_left=left_wall, workers=workers, pruning=_pruning_words(record),
+                           phases=[{"phase": p.number, "created": p.created_at, "reason": p.reason,
+                                    "first_trial": p.first_trial} for p in phases.records],
+                           families=list(phases.current.families))
 
 
 def _pruning_words(record: StudyRecord) -> str:
@@ -109,52 +104,18 @@ def _pruning_words(record: StudyRecord) -> str:
     return f"auto: {rule}" + (f" (about {expected:.0f} trials expected)" if expected is not None else "")
 
 
-def _trials(st: Store, record: StudyRecord) -> list[Any]:
-    import optuna
-
-    try:
-        study = optuna.load_study(study_name=record.name, storage=st.optuna_storage())
-    except KeyError:
-        return []
-    return study.get_trials(deepcopy=False)
-
-
-def _line(st: Store, record: StudyRecord, trials: list[Any]) -> StudyLine:
+def _line(st: Store, record: StudyRecord, trials: list[TrialRecord]) -> StudyLine:
     counts = {s: 0 for s in STATES}
     for t in trials:
-        counts[trial_state(t)] += 1
-    done = [t for t in trials if trial_state(t) == "complete"]
-    best = None
-    if done:
-        pick = max if record.direction == "maximize" else min
-        best = float(pick(t.value for t in done))
+        counts[t.state] += 1
+    best = best_of(trials, record.direction)
     wall, _ = st.spent(record.id)
     launches = st.launches(record.id)
     last = max((ln.heartbeat_at for ln in launches), default=record.created_at)
-    return StudyLine(record.name, record.task, record.metric, record.direction, best, counts, wall,
-                     record.budget_wall, record.budget_trials, last)
+    return StudyLine(record.name, record.task, record.metric, record.direction, None if best is None else best.value,
+                     counts, wall, record.budget_wall, record.budget_trials, last)
 
 
-def _trial_line(t: Any) -> TrialLine:
-    attrs = t.user_attrs
-    return TrialLine(number=t.number, state=trial_state(t), value=t.value, fold_std=attrs.get("fold_std"),
-                     family=str(t.params.get("family", "")),
-                     duration=t.duration.total_seconds() if t.duration else None,
-                     params=_shown_params(t.params, attrs.get(ROUNDS_ATTR)),
-                     note=attrs.get("error", ""), origin=trial_origin(attrs))
-
-
-def trial_origin(attrs: dict[str, Any]) -> str:
-    """Where a trial's config came from, so a reader can tell what the search found from what it was given."""
-    if attrs.get(LEARNED_ATTR):
-        return f"from {attrs[LEARNED_ATTR]}"
-    if attrs.get(RETRY_ATTR) is not None:
-        return f"retry of {attrs[RETRY_ATTR]}"
-    return "prior" if attrs.get("tl_warm_start") else "search"
-
-
-def _shown_params(params: dict[str, Any], rounds: int | None) -> dict[str, Any]:
-    """A trial's sampled parameters; a boosting trial's rounds as its folds fitted them."""
-    if rounds is None or "family" not in params:
-        return dict(params)
-    return settled_config(params, rounds)
+def _trial_line(t: TrialRecord) -> TrialLine:
+    return TrialLine(number=t.number, state=t.state, value=t.value, fold_std=t.fold_std, family=t.family,
+                     duration=t.duration, params=shown_params(t), note=t.error, origin=t.origin)

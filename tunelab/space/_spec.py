@@ -157,21 +157,20 @@ class SpaceSpec:
                         config.setdefault(f"{family}.{pname}", spec.value)
         return config
 
-    def distributions(self) -> dict[str, BaseDistribution]:
-        """Every searched parameter's optuna distribution (fixed ones left out)."""
-        out: dict[str, BaseDistribution] = {}
-        for name, spec in self.params.items():
-            dist = spec.distribution()
-            if dist is not None:
-                out[name] = dist
+    def searched(self) -> dict[str, ParamSpec]:
+        """Every searched parameter by full name (``family`` included when there is a choice; fixed ones left out)."""
+        out: dict[str, ParamSpec] = {name: spec for name, spec in self.params.items() if spec.kind != "fixed"}
         if len(self.families) > 1:
-            out["family"] = CategoricalDistribution(list(self.families))
+            out["family"] = ParamSpec("categorical", choices=tuple(self.families))
         for family, fspec in self.families.items():
             for pname, spec in fspec.params.items():
-                dist = spec.distribution()
-                if dist is not None:
-                    out[f"{family}.{pname}"] = dist
+                if spec.kind != "fixed":
+                    out[f"{family}.{pname}"] = spec
         return out
+
+    def distributions(self) -> dict[str, BaseDistribution]:
+        """Every searched parameter's optuna distribution (fixed ones left out)."""
+        return {name: dist for name, spec in self.searched().items() if (dist := spec.distribution()) is not None}
 
     def lookup(self, name: str) -> ParamSpec | None:
         """The spec of a full parameter name (``prep.x``, ``family``, ``hist_gb.learning_rate``)."""

@@ -20,8 +20,10 @@ from sqlalchemy.engine import Engine
 from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 
 from tunelab.errors import StoreError, StudyNotFound
+from tunelab.store import _keys as k
 from tunelab.store import _schema as s
 from tunelab.store._location import Location, check_sqlite_file, resolve
+from tunelab.store._records import TrialRecord, best_of, record_of
 
 BUSY_TIMEOUT_S = 60
 CONNECT_TIMEOUT_S = 5
@@ -160,7 +162,7 @@ class Store:
     def close(self) -> None:
         if self._optuna is not None:
             with contextlib.suppress(Exception):
-                self._optuna._backend.engine.dispose()
+                self._optuna.dispose()
         self.engine.dispose()
 
     def __enter__(self) -> "Store":
@@ -190,7 +192,7 @@ class Store:
         if self._optuna is None:
             import optuna
 
-            from tunelab.store._trial_buffer import LocalTrialStorage
+            from tunelab.store._optuna_adapter import LocalTrialStorage
 
             kwargs: dict[str, Any] = {"pool_pre_ping": True}
             if self.location.path is not None:
@@ -347,10 +349,27 @@ class Store:
         sql = text(
             "select count(*) from trials t join studies s on s.study_id = t.study_id "
             "where s.study_name = :name and t.state in ('COMPLETE', 'PRUNED', 'FAIL') and not exists ("
-            "select 1 from trial_user_attributes a where a.trial_id = t.trial_id and a.key = 'tl_state' "
-            "and a.value_json = '\"interrupted\"')")
+            "select 1 from trial_user_attributes a where a.trial_id = t.trial_id and a.key = :state_key "
+            "and a.value_json = :interrupted)")
         with self._translate("count trials"), self.engine.connect() as conn:
-            return int(conn.execute(sql, {"name": study_name}).scalar() or 0)
+            return int(conn.execute(sql, {"name": study_name, "state_key": k.STATE,
+                                          "interrupted": json.dumps(k.INTERRUPTED)}).scalar() or 0)
+
+    # ---- trials as plain records -------------------------------------------------------------
+    def trials(self, study: StudyRecord | str) -> list[TrialRecord]:
+        """Every trial of a study as a plain record, in trial-number order (none before the first)."""
+        name = study if isinstance(study, str) else study.name
+        storage = self.optuna_storage()
+        with self._translate("read the trials"):
+            try:
+                study_id = storage.get_study_id_from_name(name)
+            except KeyError:  # the study row exists but its trial tables were never written
+                return []
+            return [record_of(t) for t in storage.get_all_trials(study_id, deepcopy=False)]
+
+    def best_trial(self, study: StudyRecord) -> TrialRecord | None:
+        """The study's best complete trial, ``None`` when none is complete."""
+        return best_of(self.trials(study), study.direction)
 
     # ---- exports ---------------------------------------------------------------------------
     def record_export(self, study_id: int, *, now: float, path: str, sha256: str, trial_number: int) -> None:

@@ -1,4 +1,5 @@
-"""optuna's cached RDB storage, with this process's running trials written in few transactions.
+"""The one place that relies on optuna's private names: a cached RDB storage whose running trials are
+written in a few transactions, plus the conditional claim of a queued trial.
 
 Why: optuna's RDB storage commits every parameter, attribute and intermediate value on its own
 and re-reads the running trial before each parameter, about twenty round trips a trial; at a
@@ -14,6 +15,11 @@ committed transaction:
 
 A crash loses at most the intermediate reports of the trial that was running, which is
 interrupted and re-queued anyway.  Trials of other processes are read as optuna reads them.
+
+Every private name of optuna used here is listed in ``PRIVATE_NAMES``; ``missing_private_names``
+checks them against the installed optuna (``tests/test_optuna_adapter.py``), so an upgrade that
+moves one fails with its name rather than deep inside a search.  Nothing outside this module
+touches an optuna name that starts with an underscore.
 """
 
 from __future__ import annotations
@@ -33,7 +39,57 @@ from optuna.trial import FrozenTrial, TrialState
 from sqlalchemy import insert, select, update
 
 
-class LocalTrialStorage(_CachedStorage):
+# Each private name this module uses: (module, attribute) pairs checked by ``missing_private_names``;
+# attributes of instances are checked on a live storage by the adapter's test.
+PRIVATE_NAMES: tuple[tuple[str, str], ...] = (
+    ("optuna.storages._cached_storage", "_CachedStorage"),
+    ("optuna.storages._cached_storage._CachedStorage", "_read_trials_from_remote_storage"),
+    ("optuna.storages._rdb.storage", "_create_scoped_session"),
+    ("optuna.storages._rdb.storage.RDBStorage", "_set_trial_value_without_commit"),
+    ("optuna.storages._rdb.models", "TrialModel"),
+    ("optuna.storages._rdb.models", "TrialParamModel"),
+    ("optuna.storages._rdb.models", "TrialUserAttributeModel"),
+    ("optuna.storages._rdb.models", "TrialSystemAttributeModel"),
+    ("optuna.storages._rdb.models", "TrialIntermediateValueModel"),
+    ("optuna.storages._rdb.models.TrialModel", "find_or_raise_by_id"),
+    ("optuna.storages._rdb.models.TrialIntermediateValueModel", "intermediate_value_to_stored_repr"),
+)
+# Attributes of a live _CachedStorage / RDBStorage / FrozenTrial this module reads.
+PRIVATE_INSTANCE_NAMES: tuple[tuple[str, str], ...] = (
+    ("_CachedStorage", "_backend"),
+    ("_CachedStorage", "_lock"),
+    ("_CachedStorage", "_studies"),
+    ("_CachedStorage", "_trial_id_to_study_id_and_number"),
+    ("_StudyInfo", "trials"),
+    ("_StudyInfo", "param_distribution"),
+    ("RDBStorage", "scoped_session"),
+    ("RDBStorage", "engine"),
+    ("FrozenTrial", "_trial_id"),
+)
+
+
+def missing_private_names() -> list[str]:
+    """The names of ``PRIVATE_NAMES`` the installed optuna lacks (empty when the adapter fits it)."""
+    import importlib
+
+    missing = []
+    for where, name in PRIVATE_NAMES:
+        parts = where.split(".")
+        obj: Any = None
+        for cut in range(len(parts), 0, -1):  # the longest importable prefix, then attributes
+            try:
+                obj = importlib.import_module(".".join(parts[:cut]))
+            except ImportError:
+                continue
+            for attr in parts[cut:]:
+                obj = getattr(obj, attr, None)
+            break
+        if obj is None or not hasattr(obj, name):
+            missing.append(f"{where}.{name}")
+    return missing
+
+
+class LocalTrialStorage(_CachedStorage):  # type: ignore[misc]
     """optuna storage whose running trials (created or claimed here) are written at flush points."""
 
     def __init__(self, backend: RDBStorage) -> None:
@@ -141,6 +197,18 @@ class LocalTrialStorage(_CachedStorage):
                 for table in (self._local, self._pending, self._stored):
                     table.pop(trial_id, None)
         self._fresh = False
+
+    # ---- for the engine: trials by number, never by optuna's private trial id ----------------
+    def set_attr(self, study_id: int, number: int, key: str, value: Any) -> None:
+        """Record a fact on trial ``number`` of a study (buffered when this process runs it)."""
+        self.set_trial_user_attr(self.get_trial_id_from_study_id_trial_number(study_id, number), key, value)
+
+    def is_finished(self, study_id: int, number: int) -> bool:
+        return self.get_trial(self.get_trial_id_from_study_id_trial_number(study_id, number)).state.is_finished()
+
+    def dispose(self) -> None:
+        """Close the backend's connections."""
+        self._backend.engine.dispose()
 
     # ---- writes: buffered for local trials ---------------------------------------------------
     def set_trial_param(self, trial_id: int, param_name: str, param_value_internal: float,

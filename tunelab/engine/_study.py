@@ -1,0 +1,106 @@
+"""optuna's study for one launch: the seeded sampler, the pruner, and the store's trial tables.
+
+The engine is the one layer above the store that drives optuna; everything it needs from a
+study — ask, tell, queue a config, record a fact on a trial by its number — goes through
+:class:`SearchStudy`, so no module reaches into optuna's private attributes.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+from typing import Any, Mapping
+
+import optuna
+
+from tunelab.engine._pruning import make_pruner
+from tunelab.errors import InputError
+from tunelab.store import Store, StudyRecord, TrialRecord, keys, record_of
+
+SAMPLERS = ("tpe", "random")
+
+
+@dataclass
+class SearchStudy:
+    """An open optuna study on the store's trial tables, with its numeric id for trial lookups."""
+
+    study: optuna.Study
+    storage: Any  # the store's LocalTrialStorage: buffered writes for the trials this process runs
+    study_id: int
+
+    def queue(self, config: Mapping[str, Any], **attrs: Any) -> None:
+        """Queue a config to run before the sampler's own (warm starts, retries)."""
+        self.study.enqueue_trial(dict(config), user_attrs=attrs or None)
+
+    def set_attr(self, number: int, key: str, value: Any) -> None:
+        self.storage.set_attr(self.study_id, number, key, value)
+
+    def is_finished(self, number: int) -> bool:
+        return bool(self.storage.is_finished(self.study_id, number))
+
+    def mark_interrupted(self, number: int) -> bool:
+        """Record a running trial as interrupted; False when it had already finished (or another
+        worker recovered it meanwhile)."""
+        if self.is_finished(number):
+            return False
+        trial_id = self.storage.get_trial_id_from_study_id_trial_number(self.study_id, number)
+        try:
+            self.storage.set_trial_user_attr(trial_id, keys.STATE, keys.INTERRUPTED)
+            return bool(self.storage.set_trial_state_values(trial_id, optuna.trial.TrialState.FAIL))
+        except RuntimeError:  # optuna's UpdateFinishedTrialError: finished meanwhile by its owner
+            return False
+
+    def running_here(self) -> list[int]:
+        """Numbers of the trials this process created or claimed and has not finished."""
+        return list(self.storage.running_here())
+
+    def flush(self) -> None:
+        """Write what was recorded on this process's running trials (before a fit starts)."""
+        self.storage.flush()
+
+    def stamp(self, attrs: Mapping[str, Any]) -> None:
+        """Facts every trial this process creates or claims carries from its first write (its owner)."""
+        self.storage.stamp = dict(attrs)
+
+    def records(self, states: tuple[str, ...] | None = None) -> list[TrialRecord]:
+        """Every trial (or those in ``states``) as plain records."""
+        trials = [record_of(t) for t in self.study.get_trials(deepcopy=False)]
+        return trials if states is None else [t for t in trials if t.state in states]
+
+    def frozen(self, states: tuple[optuna.trial.TrialState, ...] | None = None) -> list[optuna.trial.FrozenTrial]:
+        return self.study.get_trials(deepcopy=False, states=states)
+
+
+def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, create: bool,
+                      salt: int = 0) -> SearchStudy:
+    """Load (or create) the study's optuna study with a seeded sampler and the study's pruner.
+
+    ``salt`` separates the random streams of workers that join at the same moment (they would
+    otherwise see the same launch count and draw the same start-up configs).
+    """
+    sampler = make_sampler(record.settings.get("sampler", "tpe"), (record.seed + launch_number + salt) % (2**32))
+    n_folds = int(record.settings.get("n_folds", 5))
+    pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
+                         expected_trials=record.settings.get("expected_trials"))
+    optuna.logging.set_verbosity(optuna.logging.WARNING)  # tunelab reports study creation itself
+    storage = store.optuna_storage()
+    if create:
+        study = optuna.create_study(storage=storage, study_name=record.name, direction=record.direction,
+                                    sampler=sampler, pruner=pruner)
+    else:
+        study = optuna.load_study(study_name=record.name, storage=storage, sampler=sampler, pruner=pruner)
+    return SearchStudy(study, storage, storage.get_study_id_from_name(record.name))
+
+
+def make_sampler(kind: str, seed: int) -> optuna.samplers.BaseSampler:
+    """TPE (multivariate, grouped for the conditional space, constant liar for parallel workers) or random."""
+    if kind == "random":
+        return optuna.samplers.RandomSampler(seed=seed)
+    if kind != "tpe":
+        raise InputError(f"unknown sampler '{kind}'", "use tpe or random")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", optuna.exceptions.ExperimentalWarning)
+        return optuna.samplers.TPESampler(seed=seed, multivariate=True, group=True, constant_liar=True)
+
+
+__all__ = ["SAMPLERS", "SearchStudy", "make_sampler", "open_search_study"]
