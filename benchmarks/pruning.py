@@ -200,7 +200,8 @@ def main(argv: list[str] | None = None) -> int:
         return 0
     if args.combine:
         runs = [json.loads(path.read_text()) for path in args.combine]
-        records = [{**r, "seed": run["seed"]} for run in runs for r in run["records"]]
+        # A run's file has one seed; a summary of several runs keeps each record's own seed.
+        records = [{"seed": run.get("seed", 0), **r} for run in runs for r in run["records"]]
         for seed in sorted({r["seed"] for r in records}):
             print(f"seed {seed}")
             print(render(side_by_side([r for r in records if r["seed"] == seed], runs[0]["on"])) + "\n")
