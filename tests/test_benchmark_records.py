@@ -39,3 +39,39 @@ def test_pruning_combine_reads_one_summary_holding_several_seeds(tmp_path: Path,
     pooled = out.split("mean over seeds 0, 1")[1]
     assert "2.00x" in pooled
     assert "equal or better test score with pruning:      1 of 1" in pooled
+
+
+RECORDS = REPO / "benchmarks" / "records"
+LIMIT = 50_000  # bytes a committed record may take, per file and per folder (the project's own rule)
+
+
+def test_no_committed_record_file_or_folder_is_over_the_size_limit() -> None:
+    for folder in [RECORDS, *[p for p in RECORDS.rglob("*") if p.is_dir()]]:
+        files = [p for p in folder.iterdir() if p.is_file()]
+        assert sum(p.stat().st_size for p in files) <= LIMIT, folder
+        for path in files:
+            assert path.stat().st_size <= LIMIT, path
+
+
+def test_space_benchmark_summaries_reprint_the_sixteen_seed_verdict(capsys: pytest.CaptureFixture[str]) -> None:
+    from benchmarks.space_priors import report
+
+    rows = [row for name in ("space-priors-seeds-40-47", "space-priors-seeds-48-55")
+            for row in json.loads((RECORDS / name / "summary.json").read_text())["rows"]]
+    summary = report(rows)
+    capsys.readouterr()
+    # benchmarks/README.md: built wins 8 of 10, none lost beyond 1 %, best CV better on 9 of 10.
+    assert summary["seeds"] == list(range(40, 56))
+    assert (summary["built_wins"], summary["built_losses_beyond_1pct"], summary["built_better_cv"]) == (8, 0, 9)
+    digits = next(p for p in summary["paired"] if p["dataset"] == "digits")
+    assert (digits["won"], digits["lost"]) == (13, 3)
+
+
+def test_pruning_summary_reprints_the_pooled_table_of_seeds_8_to_15(capsys: pytest.CaptureFixture[str]) -> None:
+    assert pruning.main(["--combine", str(RECORDS / "pruning-seeds-8-15" / "summary.json")]) == 0
+    pooled = capsys.readouterr().out.split("mean over seeds 8, 9, 10, 11, 12, 13, 14, 15")[1]
+    # benchmarks/README.md: at least 2x on 6 of 6, test equal or better on 5 of 6, best CV 3 of 6.
+    assert "at least 2x the configurations per minute:    6 of 6" in pooled
+    assert "equal or better test score with pruning:      5 of 6" in pooled
+    assert "equal or better best cv score with pruning:   3 of 6" in pooled
+    assert "4.52x" in pooled  # credit
