@@ -298,16 +298,3 @@ def test_paired_seed_gains_give_mean_spread_counts_and_the_exact_signed_rank_p_v
     assert (toy["won"], toy["lost"], toy["tied"]) == (6, 0, 1)
     assert toy["p_value"] == pytest.approx(2 / 2**6)
 
-
-def test_averaging_leaders_means_their_probabilities_and_takes_the_likeliest_class() -> None:
-    from benchmarks._scoring import Predictions
-    from benchmarks.blend_leaders import average
-
-    a = Predictions(values=np.array(["x", "y"]), proba=pd.DataFrame({"x": [0.9, 0.2], "y": [0.1, 0.8]}))
-    b = Predictions(values=np.array(["y", "y"]), proba=pd.DataFrame({"y": [0.7, 0.6], "x": [0.3, 0.4]}))
-    mean = average([a, b], "binary")
-    assert mean.proba.to_numpy().ravel().tolist() == pytest.approx([0.6, 0.4, 0.3, 0.7])
-    assert mean.values.tolist() == ["x", "y"]
-    values = average([Predictions(values=np.array([1.0, 3.0])), Predictions(values=np.array([3.0, 5.0]))],
-                     "regression")
-    assert values.values.tolist() == [2.0, 4.0]
