@@ -1,4 +1,5 @@
-"""`make demo`: generate the invented demo data, run its study file through the tunelab CLI, ship the model, write the report.
+"""`make demo`: generate the invented demo data, run its study file through the tunelab CLI, see what it
+decided, ship the model, write the report.
 
 Each step is a plain `tunelab` command, printed before it runs, so the demo doubles as a tour.
 """
@@ -33,10 +34,11 @@ def main() -> int:
                    "--store", spec["store"])
     if code != 0:
         return code
-    for args in (("status", spec["study"]), ("export", spec["study"], "--out", "demo-model.zip"),
+    for args in (("status", spec["study"]), ("importance", spec["study"]),
+                 ("export", spec["study"], "--out", "demo-model.zip"),
                  ("predict", "demo-model.zip", spec["data"], "--out", "demo-predictions.csv"),
                  ("report", spec["study"], "--out", "demo-report.html")):
-        needs_store = args[0] in ("status", "export", "report")
+        needs_store = args[0] in ("status", "importance", "export", "report")
         code = tunelab(*args, "--store", spec["store"]) if needs_store else tunelab(*args)
         if code != 0:
             return code

@@ -27,7 +27,8 @@ def test_ishigami_through_the_engine_ranks_x2_over_x1_over_x3(store_path):
     # Global Sensitivity Analysis: The Primer); normalised over the three: 0.415 / 0.585 / 0.
     run_objective_study("ishigami", ishigami, ISHIGAMI, Budget(trials=1000), store=str(store_path),
                         sampler="random", seed=0, clock=FakeClock(), settings=SearchSettings(heartbeat_interval=None))
-    _, report = study_importance("ishigami", store=str(store_path))
+    _, decisions = study_importance("ishigami", store=str(store_path))
+    report = decisions.importance
     share = {p: report.row(p).importance for p in ("x1", "x2", "x3")}
     assert share["x2"] > share["x1"] > share["x3"]
     assert share["x3"] < 0.05

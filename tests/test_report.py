@@ -183,7 +183,7 @@ def test_each_model_family_gets_its_trials_completes_and_best_value(searched):
     for family in ("a", "b"):
         mine = [t for t in trials_of(store, "fam") if t.params.get("family") == family]
         done = [t.value for t in mine if trial_state(t) == "complete"]
-        row = re.search(rf"<tr><td>{family}</td>(.*?)</tr>", part)
+        row = re.search(rf"<tr[^>]*><td>{family}</td>(.*?)</tr>", part)
         assert row is not None
         cells = re.findall(r'<td class="num">([^<]*)</td>', row.group(1))
         assert cells[:2] == [str(len(mine)), str(len(done))]

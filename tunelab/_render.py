@@ -110,7 +110,9 @@ def print_detail(d: Any) -> None:
     left = f", {format_duration(d.wall_left)} left" if d.wall_left is not None else ""
     out.print(f"budget: time {_budget(line.wall_spent, line.wall_budget, line.trials_budget)}{left}; CPU {cpu}")
     if d.families:
-        out.print(f"search: {', '.join(d.families)}; pruning {d.pruning}")
+        kept = [f for f in d.families if f not in d.dropped]
+        dropped = f" (dropped: {', '.join(d.dropped)})" if d.dropped else ""
+        out.print(f"search: {', '.join(kept)}{dropped}; pruning {d.pruning}")
     if d.best_trial is not None:
         b = d.best_trial
         spread = f" ± {b.fold_std:.4f} across folds" if b.fold_std is not None else ""
@@ -133,6 +135,11 @@ def print_detail(d: Any) -> None:
         for p in d.phases:
             table.add_row(str(p["phase"]), str(p["first_trial"]), p["created"][:19], p["reason"])
         out.print(table)
+    drops = [v for v in d.decisions if v["action"] == "drop"]
+    for v in drops:
+        out.print(f"drop {v['family']}: {v['reason']}")
+    if d.forecast_line:
+        out.print(f"outlook: {d.forecast_line}")
     active = [w for w in d.workers if w["state"] == "running"]
     if active:
         table = Table(title="active workers", title_justify="left", header_style="bold")
@@ -143,27 +150,61 @@ def print_detail(d: Any) -> None:
         out.print(table)
 
 
-def print_importance(record: Any, report: Any) -> None:
-    table = Table(title=f"what mattered in {record.name} ({record.metric}, {report.method})", title_justify="left",
-                  header_style="bold")
-    for name, justify in (("parameter", "left"), ("judged in", "left"), ("share", "right"), ("80% interval", "right"),
-                          ("moves score by", "right"), ("best value", "right"), ("verdict", "left")):
+def family_table(verdicts: Any, metric: str) -> Table:
+    """One row per model family: its decision and why."""
+    table = Table(title="model families", title_justify="left", header_style="bold")
+    for name, justify in (("family", "left"), ("decision", "left"), (f"behind the leader ({metric})", "right"),
+                          ("why", "left")):
         table.add_column(name, justify=justify)  # type: ignore[arg-type]
-    for row in report.rows:
-        interval = "-" if row.low is None else f"{row.low:.2f}–{row.high:.2f}"
-        best = row.best_value
-        best_text = "-" if best is None else (f"{best:.4g}" if isinstance(best, float) else str(best))
-        style = {"keep tuning": "bold", "no measurable effect": "dim"}.get(row.action, "")
-        table.add_row(row.param, row.family or "all trials", fmt(row.importance, 2), interval, fmt(row.spread),
-                      best_text, row.verdict, style=style)
-    out.print(table)
-    for group in report.groups:
-        if group.trials_needed:
-            out.print(f"note: {group.message}")
-    for note in report.notes:
-        out.print(f"note: {note}")
-    if not report.enough_trials:
-        out.print(f"about {report.trials_needed} more trials would make this table stable")
+    for v in verdicts:
+        style = {"drop": "dim", "leads": "bold"}.get(v.action, "")
+        table.add_row(v.family, v.verdict, fmt(v.gap), v.reason, style=style)
+    return table
+
+
+def print_importance(record: Any, decisions: Any) -> None:
+    if decisions.families:
+        out.print(family_table(decisions.families, record.metric))
+    report = decisions.importance
+    if report is None:
+        out.print(f"parameters: {decisions.importance_note}")
+    else:
+        table = Table(title=f"what mattered in {record.name} ({record.metric}, {report.method})",
+                      title_justify="left", header_style="bold")
+        for name, justify in (("parameter", "left"), ("judged in", "left"), ("share", "right"),
+                              ("80% interval", "right"), ("moves score by", "right"), ("best value", "right"),
+                              ("verdict", "left")):
+            table.add_column(name, justify=justify)  # type: ignore[arg-type]
+        for row in report.rows:
+            interval = "-" if row.low is None else f"{row.low:.2f}–{row.high:.2f}"
+            best = row.best_value
+            best_text = "-" if best is None else (f"{best:.4g}" if isinstance(best, float) else str(best))
+            style = {"keep tuning": "bold", "no measurable effect": "dim", "family dropped": "dim"}.get(row.action, "")
+            table.add_row(row.param, row.family or "all trials", fmt(row.importance, 2), interval, fmt(row.spread),
+                          best_text, row.verdict, style=style)
+        out.print(table)
+        undecided = [row for row in report.rows if row.action == "undecided"]
+        for row in undecided:
+            out.print(f"undecided: {row.param}: {row.reason}")
+        for note in report.notes:
+            out.print(f"note: {note}")
+    out.print(f"outlook: {decisions.forecast_line()}")
+    firm = decisions.firm()
+    if firm:
+        out.print(f"act on it: tunelab freeze {record.name} --auto   ({len(firm)} decision{'s' if len(firm) > 1 else ''})")
+
+
+def print_first_look(study: str, decisions: Any) -> None:
+    """After a launch: the decisions already firm, one line each, the forecast, and where the rest is."""
+    firm = decisions.firm()
+    if firm:
+        out.print("decided so far:")
+        for line in firm:
+            out.print(f"  {line}")
+    else:
+        out.print("decided so far: nothing yet")
+    out.print(f"outlook: {decisions.forecast_line()}")
+    out.print(f"the whole table: tunelab importance {study}")
 
 
 def _range(spec: dict[str, Any]) -> str:

@@ -47,6 +47,27 @@ StoreOpt = typer.Option(None, "--store", envvar="TUNELAB_STORE", metavar="PATH|U
 JsonOpt = typer.Option(False, "--json", help="Print the result as JSON on stdout.")
 QuietOpt = typer.Option(False, "-q", "--quiet", help="No progress output; results only.")
 SeedOpt = typer.Option(0, "--seed", help="Seed for folds, models and the sampler.")
+HorizonOpt = typer.Option("10m", "--horizon", metavar="DURATION",
+                          help="The stretch of search the forecast looks at, in study time, e.g. 10m or 1h.")
+WorthOpt = typer.Option(None, "--worth", metavar="GAIN",
+                        help="The smallest gain worth another stretch, in metric units; the forecast says stop "
+                             "when even its upper end is below it. [default: the best trial's fold noise]")
+
+
+def _decision_options(horizon: str, worth: str | None, **more: Any) -> Any:
+    """Parse --horizon and --worth into the options every deciding verb takes."""
+    from tunelab.engine import parse_duration
+    from tunelab.errors import InputError
+    from tunelab.ops import DecisionOptions
+
+    gain = None
+    if worth is not None:
+        try:
+            gain = float(worth)
+        except ValueError:
+            raise InputError(f"--worth must be a number in metric units, got '{worth}'",
+                             "e.g. --worth 0.001: the smallest gain worth another stretch") from None
+    return DecisionOptions(horizon=parse_duration(horizon, "--horizon"), worth=gain, **more)
 
 
 @app.callback()
@@ -59,11 +80,14 @@ def _search_output(result: Any, json_out: bool) -> int:
     from tunelab import _render as r
 
     s = result.summary
+    look = result.decisions
     if json_out:
         r.emit_json({"study": result.study, "store": result.store, "metric": result.metric,
                      "stop_reason": s.stop_reason, "elapsed_seconds": round(s.elapsed, 2), "trials": s.counts,
                      "best_value": s.best_value, "best_trial": s.best_trial, "best_config": result.best_config,
-                     "recovered_trials": s.recovered, "requeued_trials": s.requeued})
+                     "recovered_trials": s.recovered, "requeued_trials": s.requeued,
+                     "decisions": None if look is None else look.to_dict(),
+                     "forecast": None if look is None or look.forecast is None else look.forecast.to_dict()})
     else:
         c = s.counts
         r.out.print(f"study {result.study}: {s.stop_reason} after {r.format_duration(s.elapsed)}; "
@@ -72,6 +96,8 @@ def _search_output(result: Any, json_out: bool) -> int:
         if s.best_value is not None:
             r.out.print(f"best {result.metric} {s.best_value:.4f} (trial {s.best_trial})")
             r.out.print(r.config_table(result.best_config))
+            if look is not None:
+                r.print_first_look(result.study, look)
             r.out.print(f"next: tunelab export {result.study} --out {result.study}.model.zip"
                         + ("" if s.exit_code == 0 else f"   or continue: tunelab resume {result.study}"))
         else:
@@ -154,11 +180,16 @@ def run(
                                 help="Also learn from the K earlier studies in the store (same kind of task) whose "
                                      "data looks most alike by meta-features; their best configurations run first."),
     seed: int = SeedOpt,
+    horizon: str = HorizonOpt,
+    worth: Optional[str] = WorthOpt,
     store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
     quiet: bool = QuietOpt,
 ) -> None:
     """Profile a data file and search it for the best pipeline within a budget.
+
+    When the launch ends it prints what is already decided (families dropped, knobs to freeze or
+    without effect) and whether another stretch looks worth it; `tunelab importance` shows the rest.
 
     Example: tunelab run sales.csv --target churned --budget 10m
 
@@ -169,6 +200,7 @@ def run(
     from tunelab.engine import Budget, parse_duration
     from tunelab.ops import RunRequest, run_study
 
+    look = _decision_options(horizon, worth)
     wall = parse_duration(budget) if budget else (None if trials else 600.0)
     box = Budget(wall, parse_duration(cpu_budget) if cpu_budget else None, trials)
     request = RunRequest(data=data, target=target, budget=box, store=store, study=study, task=task, metric=metric,
@@ -176,7 +208,7 @@ def run(
                          learn_from=tuple(learn or ()), learn_nearest=nearest)
     announce, progress, close = _progress_hooks({}, quiet or json_out)
     try:
-        result = run_study(request, announce=announce, on_progress=progress, settings=_settings(ctx))
+        result = run_study(request, announce=announce, on_progress=progress, settings=_settings(ctx), look=look)
     finally:
         close()
     raise typer.Exit(_search_output(result, json_out))
@@ -192,6 +224,8 @@ def resume(
     accept_changed_data: bool = typer.Option(False, "--accept-changed-data",
                                              help="Continue even though the data file's bytes changed."),
     jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
+    horizon: str = HorizonOpt,
+    worth: Optional[str] = WorthOpt,
     store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
     quiet: bool = QuietOpt,
@@ -204,12 +238,13 @@ def resume(
     from tunelab.engine import parse_duration
     from tunelab.ops import resume_study
 
+    look = _decision_options(horizon, worth)
     seconds = parse_duration(extend) if extend else 0.0
     announce, progress, close = _progress_hooks({}, quiet or json_out)
     try:
         result = resume_study(study, store=store, extend_seconds=seconds, extend_trials=more_trials, data=data,
                               accept_changed_data=accept_changed_data, announce=announce, on_progress=progress,
-                              jobs=jobs, settings=_settings(ctx))
+                              jobs=jobs, settings=_settings(ctx), look=look)
     finally:
         close()
     raise typer.Exit(_search_output(result, json_out))
@@ -246,12 +281,17 @@ def worker(
 def status(
     study: Optional[str] = typer.Argument(None, help="A study to show in detail; omit to list every study."),
     top: int = typer.Option(5, "--top", help="How many of the best trials to show."),
+    horizon: str = HorizonOpt,
+    worth: Optional[str] = WorthOpt,
     store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
-    """List the studies in a store, or show one: best config, score ± fold spread, top trials, budget."""
+    """List the studies in a store, or show one: best config, score ± fold spread, top trials, budget,
+    which model families to drop, and whether another stretch of search looks worth it."""
     from tunelab import _render as r
     from tunelab.ops import list_studies, study_detail
+
+    options = _decision_options(horizon, worth, rank_knobs=False)
 
     if study is None:
         lines = list_studies(store)
@@ -260,7 +300,7 @@ def status(
             return
         r.out.print(r.study_list_table(lines))
         return
-    detail = study_detail(study, store, top=top)
+    detail = study_detail(study, store, top=top, options=options)
     if json_out:
         r.emit_json(detail.to_dict())
         return
@@ -361,28 +401,46 @@ def importance(
     tolerance: Optional[float] = typer.Option(None, "--tolerance",
                                               help="Smallest score change that matters, in metric units. "
                                                    "[default: 0.002 for roc_auc/accuracy/r2, else 2% of the score range]"),
+    horizon: str = HorizonOpt,
+    worth: Optional[str] = WorthOpt,
     store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
-    """Which parameters mattered, with 80% intervals, and which to stop tuning (and at what value).
+    """What to stop tuning: model families to drop, knobs to freeze or without effect, and whether to go on.
 
-    Verdicts: "keep tuning", "freeze at VALUE", "no measurable effect". Act on them with `tunelab freeze`.
+    Families: "drop FAMILY" when its best trails the leader by more than chance (80% interval of the
+    paired difference on the same folds), else "keep" or "leads"; "undecided" until one of its trials
+    finishes a fold.
+
+    Knobs: the share of score variance each explains (80% interval), how far it moves the score,
+    and a verdict: "keep tuning" (evidence it matters), "freeze at VALUE", "no measurable effect",
+    or "undecided", which says about how many more trials would decide it and how long that takes
+    at this study's pace.
+
+    Act on them with `tunelab freeze STUDY --auto`, then `tunelab resume STUDY --extend 10m`.
     """
     from tunelab import _render as r
     from tunelab.ops import study_importance
 
-    record, report = study_importance(study, store=store, method=method, family=family, tolerance=tolerance)
+    options = _decision_options(horizon, worth, method=method, family=family, tolerance=tolerance)
+    record, decisions = study_importance(study, store=store, options=options)
     if json_out:
-        r.emit_json({"study": record.name, "metric": record.metric, **report.to_dict()})
+        report = decisions.importance
+        r.emit_json({"study": record.name, "metric": record.metric, **(report.to_dict() if report else {}),
+                     "families": [f.to_dict() for f in decisions.families],
+                     "forecast": None if decisions.forecast is None else decisions.forecast.to_dict(),
+                     "forecast_note": decisions.forecast_note, "importance_note": decisions.importance_note})
         return
-    r.print_importance(record, report)
+    r.print_importance(record, decisions)
 
 
 @app.command()
 def freeze(
     study: str = typer.Argument(..., help="Study to narrow."),
     assignments: Optional[list[str]] = typer.Argument(None, help="PARAM=VALUE pairs, e.g. hist_gb.max_iter=300."),
-    auto: bool = typer.Option(False, "--auto", help="Freeze what `tunelab importance` says to freeze or has no effect."),
+    auto: bool = typer.Option(False, "--auto", help="Drop the families and freeze the knobs `tunelab importance` "
+                                                    "decided: \"drop FAMILY\", \"freeze at VALUE\", "
+                                                    "\"no measurable effect\"."),
     store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
@@ -403,7 +461,9 @@ def freeze(
     if json_out:
         r.emit_json(result.to_dict())
         return
-    r.out.print(f"study {result.study}: phase {result.phase} starts at trial {result.first_trial}; frozen:")
+    r.out.print(f"study {result.study}: phase {result.phase} starts at trial {result.first_trial}")
+    for family, why in result.dropped.items():
+        r.out.print(f"  dropped {family}  ({why})")
     for key, value in result.frozen.items():
         r.out.print(f"  {key} = {value}  ({result.reasons[key]})")
     r.out.print(f"continue with: tunelab resume {result.study} --extend 10m")
@@ -413,6 +473,8 @@ def freeze(
 def report(
     study: str = typer.Argument(..., help="Study to summarise."),
     out: Optional[Path] = typer.Option(None, "--out", "-o", help="HTML file to write. [default: ./STUDY.report.html]"),
+    horizon: str = HorizonOpt,
+    worth: Optional[str] = WorthOpt,
     store: Optional[str] = StoreOpt,
     json_out: bool = JsonOpt,
     quiet: bool = typer.Option(False, "-q", "--quiet", help="Print only the written file's path."),
@@ -432,7 +494,7 @@ def report(
     from tunelab import _render as r
     from tunelab.ops import write_report
 
-    result = write_report(study, store=store, out=out)
+    result = write_report(study, store=store, out=out, options=_decision_options(horizon, worth))
     if json_out:
         r.emit_json(result.to_dict())
     elif quiet:
@@ -442,8 +504,13 @@ def report(
                     "open it in a browser")
 
 
+def _is_usage_error(exc: BaseException) -> bool:
+    """typer's usage errors (a bad option value, a missing argument) carry exit code 2 and a message."""
+    return getattr(exc, "exit_code", None) == EXIT_BAD_INPUT and callable(getattr(exc, "format_message", None))
+
+
 def main(argv: list[str] | None = None) -> None:
-    """Entry point: run the app; map TunelabError to one line on stderr and exit code 2."""
+    """Entry point: run the app; map TunelabError and usage errors to one line on stderr and exit code 2."""
     import time
 
     flags = _Flags(debug="--debug" in (argv if argv is not None else sys.argv[1:]), started=time.time())
@@ -451,16 +518,26 @@ def main(argv: list[str] | None = None) -> None:
 
     logging.getLogger("optuna").setLevel(logging.WARNING if flags.debug else logging.ERROR)
     try:
-        app(args=argv, obj=flags, prog_name="tunelab", standalone_mode=True)
+        code = app(args=argv, obj=flags, prog_name="tunelab", standalone_mode=False)
     except TunelabError as exc:
         if flags.debug:
             raise
         hint = f" — {exc.hint}" if exc.hint else ""
         sys.stderr.write(f"tunelab: error: {exc.message}{hint}\n")
         sys.exit(EXIT_BAD_INPUT)
-    except KeyboardInterrupt:
+    except (KeyboardInterrupt, typer.Abort):
         sys.stderr.write("tunelab: stopped\n")
         sys.exit(130)
+    except Exception as exc:
+        if flags.debug or not _is_usage_error(exc):
+            raise
+        ctx = getattr(exc, "ctx", None)
+        name = getattr(ctx, "info_name", None)
+        where = f"tunelab {name}" if name and name != "tunelab" else "tunelab"
+        message = " ".join(exc.format_message().split())  # type: ignore[attr-defined]
+        sys.stderr.write(f"tunelab: error: {message} — see `{where} --help`\n")
+        sys.exit(EXIT_BAD_INPUT)
+    sys.exit(code if isinstance(code, int) else 0)
 
 
 if __name__ == "__main__":  # pragma: no cover

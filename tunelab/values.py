@@ -36,4 +36,10 @@ def format_duration(seconds: float) -> str:
     return f"{hours}h{minutes:02d}m"
 
 
-__all__ = ["format_duration", "plain"]
+def format_score(value: float) -> str:
+    """A score or a difference of scores in metric units: four decimals, or two with thousands
+    separators for large-valued metrics (RMSE in currency units)."""
+    return f"{value:.4f}" if abs(value) < 10 else f"{value:,.2f}"
+
+
+__all__ = ["format_duration", "format_score", "plain"]

@@ -12,8 +12,10 @@ _UNITS = {"s": 1.0, "m": 60.0, "h": 3600.0, "d": 86400.0}
 _PART = re.compile(r"(\d+(?:\.\d+)?)([smhd])")
 
 
-def parse_duration(text: str) -> float:
+def parse_duration(text: str, what: str = "budget") -> float:
     """Seconds in a duration such as ``90s``, ``10m``, ``1h30m`` or a bare number of seconds.
+
+    ``what`` names the option in the error (``budget``, ``--horizon``).
 
     Raises
     ------
@@ -23,16 +25,16 @@ def parse_duration(text: str) -> float:
     raw = str(text).strip().lower().replace(" ", "")
     hint = "write a duration such as 90s, 10m, 2h or 1h30m"
     if not raw:
-        raise BudgetError("empty budget", hint)
+        raise BudgetError(f"empty {what}", hint)
     if re.fullmatch(r"\d+(\.\d+)?", raw):
         seconds = float(raw)
     else:
         parts = _PART.findall(raw)
         if not parts or "".join(n + u for n, u in parts) != raw:
-            raise BudgetError(f"cannot read budget '{text}'", hint)
+            raise BudgetError(f"cannot read {what} '{text}'", hint)
         seconds = sum(float(n) * _UNITS[u] for n, u in parts)
     if seconds <= 0:
-        raise BudgetError(f"budget must be more than zero, got '{text}'", hint)
+        raise BudgetError(f"{what} must be more than zero, got '{text}'", hint)
     return seconds
 
 

@@ -44,6 +44,7 @@ from optuna.trial import FrozenTrial, TrialState
 
 from tunelab.engine._objective import STEPS_PER_FOLD
 from tunelab.errors import InputError
+from tunelab.stats import fit_folds
 from tunelab.store import keys
 
 PRUNING_CHOICES = ("auto", "off", "median", "halving", "hyperband")
@@ -82,27 +83,14 @@ def _judged_at(trial: FrozenTrial, step: int) -> bool:
 def fold_noise(study: optuna.Study) -> float | None:
     """The spread of one fold's score that the comparison of two trials cannot explain, or None.
 
-    Every trial is scored on the same folds, so a fold that is hard for one configuration is
-    hard for all: what makes a rung's ranking noisy is only how differently two configurations
-    fare from fold to fold.  That is the residual of an additive fit (trial effect + fold
-    effect) to the finished trials' fold scores; two trials' running means after ``k`` folds
-    then differ by chance with a standard deviation of ``noise * sqrt(2 / k)``.  None until two
-    finished trials with the same number of folds are in the store.
+    The residual of the additive fold model (``tunelab.stats``) fitted to the finished trials'
+    fold scores; two trials' running means after ``k`` folds then differ by chance with a standard
+    deviation of ``noise * sqrt(2 / k)``.  None until two finished trials with the same number of
+    folds are in the store.
     """
-    rows: dict[int, list[list[float]]] = {}
-    for t in study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,)):
-        scores = t.user_attrs.get(keys.FOLD_SCORES)
-        if isinstance(scores, list) and len(scores) >= 2 and all(math.isfinite(float(v)) for v in scores):
-            rows.setdefault(len(scores), []).append([float(v) for v in scores])
-    if not rows:
-        return None
-    matrix = np.asarray(max(rows.values(), key=len))
-    n, folds = matrix.shape
-    if n < 2:
-        return None
-    residual = (matrix - matrix.mean(axis=1, keepdims=True) - matrix.mean(axis=0, keepdims=True)
-                + matrix.mean())
-    return float(np.sqrt((residual ** 2).sum() / ((n - 1) * (folds - 1))))
+    rows = [t.user_attrs.get(keys.FOLD_SCORES) for t in study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,))]
+    fit = fit_folds(r for r in rows if isinstance(r, list))
+    return None if fit is None else fit.noise
 
 
 def _peer_values(study: optuna.Study, trial: FrozenTrial, step: int, states: Iterable[TrialState],

@@ -7,11 +7,13 @@ study — ask, tell, queue a config, record a fact on a trial by its number — 
 
 from __future__ import annotations
 
+import random
 import warnings
 from dataclasses import dataclass
-from typing import Any, Mapping
+from typing import Any, Mapping, Sequence
 
 import optuna
+from optuna.distributions import BaseDistribution
 
 from tunelab.engine._pruning import make_pruner
 from tunelab.errors import InputError
@@ -72,13 +74,15 @@ class SearchStudy:
 
 
 def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, create: bool,
-                      salt: int = 0) -> SearchStudy:
+                      salt: int = 0, dropped: tuple[str, ...] = ()) -> SearchStudy:
     """Load (or create) the study's optuna study with a seeded sampler and the study's pruner.
 
     ``salt`` separates the random streams of workers that join at the same moment (they would
-    otherwise see the same launch count and draw the same start-up configs).
+    otherwise see the same launch count and draw the same start-up configs).  ``dropped`` are the
+    families the current phase dropped: the sampler never returns them.
     """
-    sampler = make_sampler(record.settings.get("sampler", "tpe"), (record.seed + launch_number + salt) % (2**32))
+    sampler = make_sampler(record.settings.get("sampler", "tpe"), (record.seed + launch_number + salt) % (2**32),
+                           dropped=dropped)
     n_folds = int(record.settings.get("n_folds", 5))
     pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
                          expected_trials=record.settings.get("expected_trials"))
@@ -92,15 +96,78 @@ def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, 
     return SearchStudy(study, storage, storage.get_study_id_from_name(record.name))
 
 
-def make_sampler(kind: str, seed: int) -> optuna.samplers.BaseSampler:
-    """TPE (multivariate, grouped for the conditional space, constant liar for parallel workers) or random."""
+def make_sampler(kind: str, seed: int, dropped: tuple[str, ...] = ()) -> optuna.samplers.BaseSampler:
+    """TPE (multivariate, grouped for the conditional space, constant liar for parallel workers) or random;
+    with ``dropped`` families, wrapped so that it never returns them."""
+    base: optuna.samplers.BaseSampler
     if kind == "random":
-        return optuna.samplers.RandomSampler(seed=seed)
-    if kind != "tpe":
+        base = optuna.samplers.RandomSampler(seed=seed)
+    elif kind == "tpe":
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", optuna.exceptions.ExperimentalWarning)
+            base = optuna.samplers.TPESampler(seed=seed, multivariate=True, group=True, constant_liar=True)
+    else:
         raise InputError(f"unknown sampler '{kind}'", "use tpe or random")
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", optuna.exceptions.ExperimentalWarning)
-        return optuna.samplers.TPESampler(seed=seed, multivariate=True, group=True, constant_liar=True)
+    return KeptFamilies(base, dropped, seed) if dropped else base
 
 
-__all__ = ["SAMPLERS", "SearchStudy", "make_sampler", "open_search_study"]
+class KeptFamilies(optuna.samplers.BaseSampler):
+    """A sampler that draws ``family`` only among the families not dropped.
+
+    A dropped family stays a choice of the ``family`` distribution (optuna's trial tables refuse a
+    categorical whose choices change), so the wrapped sampler may still propose it; the proposal
+    is then drawn again, up to ``REDRAWS`` times, and finally replaced by a kept family at random.
+    Every other parameter is the wrapped sampler's.
+    """
+
+    REDRAWS = 5
+
+    def __init__(self, base: optuna.samplers.BaseSampler, dropped: tuple[str, ...], seed: int) -> None:
+        self.base = base
+        self.dropped = frozenset(dropped)
+        self._rng = random.Random(seed)
+
+    def infer_relative_search_space(self, study: optuna.Study,
+                                    trial: optuna.trial.FrozenTrial) -> dict[str, BaseDistribution]:
+        return self.base.infer_relative_search_space(study, trial)
+
+    def sample_relative(self, study: optuna.Study, trial: optuna.trial.FrozenTrial,
+                        search_space: dict[str, BaseDistribution]) -> dict[str, Any]:
+        params = self.base.sample_relative(study, trial, search_space)
+        for _ in range(self.REDRAWS):
+            if params.get("family") not in self.dropped:
+                return params
+            params = self.base.sample_relative(study, trial, search_space)
+        if params.get("family") in self.dropped:
+            params = dict(params)
+            params["family"] = self._kept(search_space["family"])
+        return params
+
+    def sample_independent(self, study: optuna.Study, trial: optuna.trial.FrozenTrial, param_name: str,
+                           param_distribution: BaseDistribution) -> Any:
+        value = self.base.sample_independent(study, trial, param_name, param_distribution)
+        if param_name != "family":
+            return value
+        for _ in range(self.REDRAWS):
+            if value not in self.dropped:
+                return value
+            value = self.base.sample_independent(study, trial, param_name, param_distribution)
+        return value if value not in self.dropped else self._kept(param_distribution)
+
+    def _kept(self, distribution: BaseDistribution) -> Any:
+        choices = [c for c in getattr(distribution, "choices", ()) if c not in self.dropped]
+        return self._rng.choice(choices)
+
+    def before_trial(self, study: optuna.Study, trial: optuna.trial.FrozenTrial) -> None:
+        self.base.before_trial(study, trial)
+
+    def after_trial(self, study: optuna.Study, trial: optuna.trial.FrozenTrial, state: optuna.trial.TrialState,
+                    values: Sequence[float] | None) -> None:
+        self.base.after_trial(study, trial, state, values)
+
+    def reseed_rng(self) -> None:
+        self.base.reseed_rng()
+        self._rng = random.Random()
+
+
+__all__ = ["KeptFamilies", "SAMPLERS", "SearchStudy", "make_sampler", "open_search_study"]

@@ -1,14 +1,20 @@
-"""Insight into a search: which parameters matter, which can be frozen at what value, and the HTML report."""
+"""Insight into a search: which families to drop, which knobs matter or can be frozen at what value,
+whether another stretch of search is worth it, and the HTML report."""
 
+from tunelab.insight._decisions import DEFAULT_HORIZON, Decisions, StudyEvidence, decide, default_worth
+from tunelab.insight._evidence import comparable, fold_fit
+from tunelab.insight._families import FamilyVerdict, family_verdicts
+from tunelab.insight._forecast import Forecast, forecast
 from tunelab.insight._importance import (
     FAMILY_PARAM,
+    FANOVA_SECONDS,
     GroupNote,
     ImportanceReport,
     ImportanceRow,
     Thresholds,
-    TrialRecord,
     importance_table,
 )
+from tunelab.insight._pace import Pace
 from tunelab.insight._report import (
     GENERATOR,
     BestTrial,
@@ -18,30 +24,44 @@ from tunelab.insight._report import (
     ReportData,
     best_so_far,
     nice_ticks,
-    value_window,
     render_report,
     space_reasons,
     trial_chart,
+    value_window,
 )
+from tunelab.store import TrialRecord
 
 __all__ = [
     "BestTrial",
     "ChartPoint",
+    "DEFAULT_HORIZON",
+    "Decisions",
     "FAMILY_PARAM",
+    "FANOVA_SECONDS",
     "FamilyLine",
+    "FamilyVerdict",
+    "Forecast",
     "GENERATOR",
     "GroupNote",
     "ImportanceReport",
     "ImportanceRow",
+    "Pace",
     "Reason",
     "ReportData",
+    "StudyEvidence",
     "Thresholds",
     "TrialRecord",
     "best_so_far",
+    "comparable",
+    "decide",
+    "default_worth",
+    "family_verdicts",
+    "fold_fit",
+    "forecast",
     "importance_table",
     "nice_ticks",
-    "value_window",
     "render_report",
     "space_reasons",
     "trial_chart",
+    "value_window",
 ]

@@ -19,6 +19,7 @@ from typing import TYPE_CHECKING, Any, Literal
 from tunelab.values import format_duration
 
 if TYPE_CHECKING:  # types only: the page is built from plain values
+    from tunelab.insight._families import FamilyVerdict
     from tunelab.insight._importance import ImportanceReport
     from tunelab.space import SpaceSpec
 
@@ -109,6 +110,8 @@ class ReportData:
     reasons: Sequence[Reason]
     phases: Sequence[tuple[int, int, str]] = field(default_factory=tuple)  # (phase, first trial, why)
     written_at: str = ""
+    family_verdicts: Sequence["FamilyVerdict"] = field(default_factory=tuple)
+    forecast: str = ""  # what another stretch of search is likely to buy, in one line
 
 
 # ------------------------------------------------------------------------------------ page
@@ -137,6 +140,8 @@ def render_report(data: ReportData) -> str:
         _chart_caption(data),
         '<h2 id="families">Model families</h2>',
         _families(data),
+        '<h2 id="outlook">Is more search worth it?</h2>',
+        f'<p>{_e(data.forecast)}</p>' if data.forecast else '<p class="quiet">No forecast.</p>',
         '<h2 id="importance">Which parameters mattered</h2>',
         _importance(data),
         '<h2 id="space">Why the search space looks like this</h2>',
@@ -275,15 +280,20 @@ def _chart_caption(d: ReportData) -> str:
 def _families(d: ReportData) -> str:
     if not d.families:
         return '<p class="quiet">This search space has no model families to compare.</p>'
+    verdicts = {v.family: v for v in d.family_verdicts}
     head = ("<tr><th>family</th><th class=\"num\">trials</th><th class=\"num\">complete</th>"
-            f"<th class=\"num\">pruned</th><th class=\"num\">best {_e(d.metric)}</th><th class=\"num\">in trial</th></tr>")
-    body = "".join(
-        f"<tr><td>{_e(f.family)}</td><td class=\"num\">{f.trials}</td><td class=\"num\">{f.complete}</td>"
-        f"<td class=\"num\">{f.pruned}</td><td class=\"num\">{_e(_num(f.best))}</td>"
-        f"<td class=\"num\">{'-' if f.best_trial is None else f.best_trial}</td></tr>"
-        for f in d.families
-    )
-    return f"<table><thead>{head}</thead><tbody>{body}</tbody></table>"
+            f"<th class=\"num\">pruned</th><th class=\"num\">best {_e(d.metric)}</th><th class=\"num\">in trial</th>"
+            "<th>decision</th><th>why</th></tr>")
+    body = []
+    for f in d.families:
+        v = verdicts.get(f.family)
+        cls = {"drop": ' class="quiet"', "leads": ' class="keep"'}.get(v.action if v else "", "")
+        body.append(
+            f"<tr{cls}><td>{_e(f.family)}</td><td class=\"num\">{f.trials}</td><td class=\"num\">{f.complete}</td>"
+            f"<td class=\"num\">{f.pruned}</td><td class=\"num\">{_e(_num(f.best))}</td>"
+            f"<td class=\"num\">{'-' if f.best_trial is None else f.best_trial}</td>"
+            f"<td>{_e(v.verdict if v else '-')}</td><td>{_e(v.reason if v else '')}</td></tr>")
+    return f"<table><thead>{head}</thead><tbody>{''.join(body)}</tbody></table>"
 
 
 def _importance(d: ReportData) -> str:
@@ -296,7 +306,8 @@ def _importance(d: ReportData) -> str:
     body = []
     for r in report.rows:
         interval = "-" if r.low is None or r.high is None else f"{r.low:.2f} to {r.high:.2f}"
-        cls = {"keep tuning": ' class="keep"', "no measurable effect": ' class="quiet"'}.get(r.action, "")
+        cls = {"keep tuning": ' class="keep"', "no measurable effect": ' class="quiet"',
+               "family dropped": ' class="quiet"'}.get(r.action, "")
         body.append(
             f"<tr{cls}><td>{_e(r.param)}</td><td>{_e(r.family or 'all trials')}</td>"
             f"<td class=\"num\">{_e(_fixed(r.importance, 2))}</td><td class=\"num\">{_e(interval)}</td>"
@@ -304,7 +315,8 @@ def _importance(d: ReportData) -> str:
             f"<td title=\"{_e(r.reason)}\">{_e(r.verdict)}</td></tr>"
         )
     how = ("Share: the part of the score's variance a parameter explains on its own, with an 80% interval "
-           f"from resampling the trials ({report.method}). Hover a verdict for its reason.")
+           f"from resampling the trials ({report.method}). Hover a verdict for its reason; an undecided one "
+           "says how many more trials would decide it.")
     return (f"<table><thead>{head}</thead><tbody>{''.join(body)}</tbody></table>"
             f'<p class="quiet">{_e(how)}</p>{note}')
 

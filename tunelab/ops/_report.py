@@ -16,17 +16,15 @@ from tunelab.insight import (
     GENERATOR,
     BestTrial,
     ChartPoint,
+    Decisions,
     FamilyLine,
-    ImportanceReport,
     ReportData,
-    Thresholds,
-    importance_table,
     render_report,
     space_reasons,
 )
-from tunelab.ops._insight import METRIC_TOLERANCE, scored_records
+from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._trials import Phases
-from tunelab.store import TRIAL_STATES, Store, StudyRecord, TrialRecord, best_of, utc_iso
+from tunelab.store import TRIAL_STATES, Store, best_of, utc_iso
 
 
 @dataclass
@@ -51,7 +49,7 @@ def default_report_path(study: str) -> Path:
 
 
 def write_report(name: str, *, store: str | None = None, out: Path | None = None,
-                 clock: Clock | None = None) -> ReportResult:
+                 clock: Clock | None = None, options: DecisionOptions = DecisionOptions()) -> ReportResult:
     """Write the study's report to ``out`` (default :func:`default_report_path`) in one step.
 
     The page is written to a temporary file beside ``out`` and renamed over it, so a reader never
@@ -60,7 +58,7 @@ def write_report(name: str, *, store: str | None = None, out: Path | None = None
     """
     path = out if out is not None else default_report_path(name)
     _check_out(path)
-    data = report_data(name, store=store, clock=clock)
+    data = report_data(name, store=store, clock=clock, options=options)
     page = render_report(data).encode("utf-8")
     tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
     try:
@@ -75,8 +73,9 @@ def write_report(name: str, *, store: str | None = None, out: Path | None = None
     return ReportResult(data.study, str(path), total, data.best.value if data.best else None, data.metric, len(page))
 
 
-def report_data(name: str, *, store: str | None = None, clock: Clock | None = None) -> ReportData:
-    """Everything the report shows, read from the store as plain values (importance included)."""
+def report_data(name: str, *, store: str | None = None, clock: Clock | None = None,
+                options: DecisionOptions = DecisionOptions()) -> ReportData:
+    """Everything the report shows, read from the store as plain values (decisions included)."""
     clock = clock or SystemClock()
     with Store.open(store) as st:
         record = st.get_study(name)
@@ -84,7 +83,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
         launches = st.launches(record.id)
         wall, cpu = st.spent(record.id)
         trials = st.trials(record)
-    distributions = phases.distributions()
+        decisions = decisions_for(st, record, options)
     counts = {s: 0 for s in TRIAL_STATES}
     points: list[ChartPoint] = []
     families: dict[str, dict[str, Any]] = {  # every family searched, tried or not
@@ -108,7 +107,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
             if t.state == "complete" and t.scored and better(float(t.value), line["best"]):  # type: ignore[arg-type]
                 line["best"], line["at"] = float(t.value), t.number  # type: ignore[arg-type]
     best = best_of(trials, record.direction)
-    importance, note = _importance(record, scored_records(trials, distributions), distributions)
+    importance, note = _importance(record.name, decisions)
     return ReportData(
         study=record.name, data_path=record.data_path, target=record.target, task=record.task, metric=record.metric,
         direction=record.direction,  # type: ignore[arg-type]
@@ -122,6 +121,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
         points=points, families=_family_lines(families, maximize),
         importance=importance, importance_note=note, reasons=space_reasons(phases.current),
         phases=[(p.number, p.first_trial, p.reason) for p in phases.records], written_at=utc_iso(clock.now()),
+        family_verdicts=decisions.families, forecast=decisions.forecast_line(),
     )
 
 
@@ -140,29 +140,20 @@ def _family_lines(families: dict[str, dict[str, Any]], maximize: bool) -> list[F
     return sorted(lines, key=rank)
 
 
-def _importance(record: StudyRecord, trials: list[TrialRecord],
-                distributions: dict[str, Any]) -> tuple[ImportanceReport | None, str]:
+def _importance(study: str, decisions: Decisions) -> tuple[Any, str]:
     """The importance table as ``tunelab importance`` computes it, or one plain line saying why not."""
-    thresholds = Thresholds(spread_tolerance=METRIC_TOLERANCE.get(record.metric))
-    finished = len(trials)
-    if not any(t.state == "complete" for t in trials):
-        return None, "No trial has completed yet, so there is nothing to rank parameters by."
-    if finished < thresholds.min_trials:
-        return None, (f"Too few finished trials to say which parameters mattered: {finished} so far, at least "
-                      f"{thresholds.min_trials} needed; run more with: tunelab resume {record.name} --extend 10m")
-    try:
-        report = importance_table(trials, distributions, direction=record.direction,  # type: ignore[arg-type]
-                                  thresholds=thresholds)
-    except TunelabError as exc:
-        return None, f"Parameter importance could not be computed: {exc.message}."
+    report = decisions.importance
+    if report is None:
+        return None, (decisions.importance_note[:1].upper() + decisions.importance_note[1:] + ".")
     if not report.rows:
         return None, "The search space has no searched parameters to rank."
-    if all(g.trials_needed for g in report.groups):
+    if all(r.action == "undecided" for r in report.rows):
+        finished = max((g.n_trials for g in report.groups), default=0)
         return None, (f"Too few finished trials to say which parameters mattered: {finished} so far; about "
-                      f"{report.trials_needed} more would give a stable answer.")
+                      f"{report.trials_needed} more would decide (tunelab resume {study} --extend 10m).")
     if not report.enough_trials:
-        return report, (f"Some rows rest on too few trials (\u201ckeep tuning\u201d until then); about "
-                        f"{report.trials_needed} more trials would make every row stable.")
+        return report, (f"Some rows are undecided; about {report.trials_needed} more trials would decide them "
+                        f"(tunelab resume {study} --extend 10m).")
     return report, ""
 
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import os
 import re
 import signal
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Callable
 
@@ -31,6 +31,8 @@ from tunelab.engine import (
 )
 from tunelab.errors import InputError, StudyStateError
 from tunelab.models import FAMILIES, preload
+from tunelab.insight import Decisions
+from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
 from tunelab.ops._profile import profile_metafeatures, profiled_space
 from tunelab.ops._signals import stop_on_signals
@@ -40,6 +42,8 @@ from tunelab.store import Store, StudyRecord, keys
 
 
 THREADS_PER_TRIAL = 1
+# The importance computation's allowance in run's first look; with the rest it stays within 5 s.
+FIRST_LOOK_SECONDS = 2.0
 
 
 @dataclass(frozen=True)
@@ -89,6 +93,7 @@ class RunResult:
     direction: str
     summary: SearchSummary
     best_config: dict[str, Any] = field(default_factory=dict)
+    decisions: Decisions | None = None  # the first look: what is already decided, and the forecast
 
 
 Announce = Callable[[StudyStart], None]
@@ -97,8 +102,12 @@ OnProgress = Callable[[Progress], None]
 
 def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Announce | None = None,
               on_progress: OnProgress | None = None, runner_factory: Callable[[Any], Any] = ForkRunner,
-              settings: SearchSettings | None = None) -> RunResult:
-    """Create a study for a data file and search it within its budget."""
+              settings: SearchSettings | None = None, look: DecisionOptions | None = None) -> RunResult:
+    """Create a study for a data file and search it within its budget.
+
+    With ``look``, the result carries the first look at the decisions (``FIRST_LOOK_SECONDS`` of
+    work after the launch closes, not charged to the budget).
+    """
     clock = clock or SystemClock()
     dataset = load_dataset(request.data, request.target, request.task)
     metric = resolve_metric(request.metric, dataset.task)
@@ -144,14 +153,14 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
                        clock=clock, announce=announce,
                        on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
-                       jobs=request.jobs, notes=[*dataset.notes, *learned.notes])
+                       jobs=request.jobs, notes=[*dataset.notes, *learned.notes], look=look)
 
 
 def resume_study(name: str, *, store: str | None = None, extend_seconds: float = 0.0, extend_trials: int = 0,
                  data: Path | None = None, accept_changed_data: bool = False, clock: Clock | None = None,
                  announce: Announce | None = None, on_progress: OnProgress | None = None,
                  runner_factory: Callable[[Any], Any] = ForkRunner, settings: SearchSettings | None = None,
-                 jobs: int = 1, kind: str = "resume") -> RunResult:
+                 jobs: int = 1, kind: str = "resume", look: DecisionOptions | None = None) -> RunResult:
     """Continue a study with what is left of its budget (plus any extension).
 
     ``kind="worker"`` joins a study other processes are working on (``tunelab worker``): the same
@@ -184,21 +193,21 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
         space = SpaceSpec.from_json(phases[-1].space_json)
         launches = len(st.launches(record.id))
         study = open_search_study(st, record, launch_number=launches, create=False,
-                                  salt=os.getpid() if kind == "worker" else 0)
+                                  salt=os.getpid() if kind == "worker" else 0, dropped=space.dropped)
         settings = settings or SearchSettings()
         settings.phase = phases[-1].number
         settings.kind = kind
         return _launch(st, record, study, dataset, space, budget, dataset_path=path.resolve(), clock=clock,
                        announce=announce,
                        on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=True,
-                       jobs=jobs, notes=dataset.notes)
+                       jobs=jobs, notes=dataset.notes, look=look)
 
 
 def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec, budget: Budget, *,
             dataset_path: Path,
             clock: Clock, announce: Announce | None, on_progress: OnProgress | None,
             runner_factory: Callable[[Any], Any], settings: SearchSettings | None, resumed: bool, jobs: int,
-            notes: list[str]) -> RunResult:
+            notes: list[str], look: DecisionOptions | None = None) -> RunResult:
     metric = resolve_metric(record.metric, record.task)
     spent_wall, _ = store.spent(record.id)
     if announce is not None:
@@ -211,7 +220,7 @@ def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Data
     threads = THREADS_PER_TRIAL
     objective = CrossValidationObjective(dataset, metric, seed=record.seed, n_threads=threads,
                                          n_folds=record.settings.get("n_folds"))
-    preload(space.families or ["hist_gb"], record.task)
+    preload(space.kept_families or ["hist_gb"], record.task)
     objective.warm_up(_warm_up_configs(space))
     runner = runner_factory(objective)
     with stop_on_signals():
@@ -227,7 +236,15 @@ def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Data
             summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
                              on_progress=on_progress)
     return RunResult(record.name, store.location.display(), record.metric, record.direction, summary,
-                     _best_config(store, record, summary, space))
+                     _best_config(store, record, summary, space), _first_look(store, record, summary, look))
+
+
+def _first_look(store: Store, record: StudyRecord, summary: SearchSummary,
+                look: DecisionOptions | None) -> Decisions | None:
+    """The decisions already firm and the forecast, after the launch closed (not charged to the budget)."""
+    if look is None or summary.best_trial is None:
+        return None
+    return decisions_for(store, record, replace(look, seconds=FIRST_LOOK_SECONDS))
 
 
 def _best_config(store: Store, record: StudyRecord, summary: SearchSummary, space: SpaceSpec) -> dict[str, Any]:
@@ -245,7 +262,7 @@ def _warm_up_configs(space: SpaceSpec) -> list[dict[str, Any]]:
     configs: dict[str, dict[str, Any]] = {}
     for warm in space.warm_starts:
         configs.setdefault(str(warm.get("family", "hist_gb")), space.complete(warm))
-    for family in space.families or ["hist_gb"]:
+    for family in space.kept_families or ["hist_gb"]:
         configs.setdefault(family, space.complete({"family": family}))
     return list(configs.values())
 
@@ -302,11 +319,13 @@ def join_objective_study(name: str, objective: Any, *, store: str | None = None,
     clock = clock or SystemClock()
     with Store.open(store) as st:
         record = st.get_study(name)
-        space = SpaceSpec.from_json(st.phases(record.id)[-1].space_json)
+        phase = st.phases(record.id)[-1]
+        space = SpaceSpec.from_json(phase.space_json)
         budget = Budget(record.budget_wall, record.budget_cpu, record.budget_trials)
         study = open_search_study(st, record, launch_number=len(st.launches(record.id)),
-                                  create=False, salt=os.getpid() if kind == "worker" else 0)
+                                  create=False, salt=os.getpid() if kind == "worker" else 0, dropped=space.dropped)
         settings = settings or SearchSettings()
+        settings.phase = phase.number
         settings.kind = kind
         runner = (runner_factory or InProcessRunner)(objective)
         with stop_on_signals():

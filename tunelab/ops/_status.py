@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 from typing import Any
 
 from tunelab.engine import choose_pruning
+from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._trials import Phases, shown_params
 from tunelab.store import TRIAL_STATES, Store, StudyRecord, TrialRecord, best_of, ranked
 
@@ -61,6 +62,10 @@ class StudyDetail:
     workers: list[dict[str, Any]] = field(default_factory=list)
     pruning: str = ""  # the rule in force: "median", or "auto: median (about 24 trials expected)"
     families: list[str] = field(default_factory=list)  # of the current phase's space
+    dropped: list[str] = field(default_factory=list)  # families the current phase no longer samples
+    decisions: list[dict[str, Any]] = field(default_factory=list)  # one verdict per family
+    forecast: dict[str, Any] | None = None
+    forecast_line: str = ""
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -72,10 +77,13 @@ def list_studies(store: str | None) -> list[StudyLine]:
         return [_line(st, record, st.trials(record)) for record in st.list_studies()]
 
 
-def study_detail(name: str, store: str | None, top: int = 5) -> StudyDetail:
-    """One study: best config, score ± fold spread, the top trials, the budget."""
+def study_detail(name: str, store: str | None, top: int = 5,
+                 options: DecisionOptions = DecisionOptions(rank_knobs=False)) -> StudyDetail:
+    """One study: best config, score ± fold spread, the top trials, the budget, the family
+    decisions and the forecast."""
     with Store.open(store) as st:
         record = st.get_study(name)
+        decisions = decisions_for(st, record, replace(options, rank_knobs=False))
         trials = st.trials(record)
         line = _line(st, record, trials)
         best = ranked(trials, record.direction)
@@ -92,7 +100,10 @@ def study_detail(name: str, store: str | None, top: int = 5) -> StudyDetail:
                            wall_left=left_wall, workers=workers, pruning=_pruning_words(record),
                            phases=[{"phase": p.number, "created": p.created_at, "reason": p.reason,
                                     "first_trial": p.first_trial} for p in phases.records],
-                           families=list(phases.current.families))
+                           families=list(phases.current.families), dropped=list(phases.dropped),
+                           decisions=[v.to_dict() for v in decisions.families],
+                           forecast=None if decisions.forecast is None else decisions.forecast.to_dict(),
+                           forecast_line=decisions.forecast_line())
 
 
 def _pruning_words(record: StudyRecord) -> str:

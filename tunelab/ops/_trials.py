@@ -12,7 +12,7 @@ from typing import Any
 
 from tunelab.engine import settled_config
 from tunelab.space import SpaceSpec
-from tunelab.store import PhaseRecord, Store, StudyRecord, TrialRecord
+from tunelab.store import LaunchRecord, PhaseRecord, Store, StudyRecord, TrialRecord, union_length
 
 
 @dataclass(frozen=True)
@@ -45,6 +45,11 @@ class Phases:
     def family(self, trial: TrialRecord) -> str:
         return str(self.config(trial).get("family", ""))
 
+    @property
+    def dropped(self) -> tuple[str, ...]:
+        """Families the current phase dropped."""
+        return self.current.dropped
+
     def distributions(self) -> dict[str, Any]:
         """Every parameter searched in any phase, by name (the earliest, widest phase wins)."""
         out: dict[str, Any] = {}
@@ -59,3 +64,22 @@ def shown_params(trial: TrialRecord) -> dict[str, Any]:
     if trial.rounds is None or "family" not in trial.params:
         return dict(trial.params)
     return settled_config(trial.params, trial.rounds)
+
+
+@dataclass(frozen=True)
+class Ledger:
+    """The study's working time: the union of its launches' intervals (parallel workers count once)."""
+
+    intervals: tuple[tuple[float, float], ...]
+
+    @classmethod
+    def of(cls, launches: list[LaunchRecord]) -> "Ledger":
+        return cls(tuple((ln.started_epoch, ln.started_epoch + ln.wall_seconds) for ln in launches))
+
+    @property
+    def spent(self) -> float:
+        return union_length(list(self.intervals))
+
+    def at(self, epoch: float) -> float:
+        """Ledger seconds spent up to a moment (epoch seconds)."""
+        return union_length([(a, min(b, epoch)) for a, b in self.intervals if a < epoch])

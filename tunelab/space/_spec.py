@@ -128,6 +128,12 @@ class SpaceSpec:
     notes: tuple[str, ...] = ()
     family_reason: str = ""
     trial_seconds: float | None = None  # the builder's estimate of a typical trial, from the cost probes
+    dropped: tuple[str, ...] = ()  # families kept in the ``family`` choice but never sampled (see ``freeze``)
+
+    @property
+    def kept_families(self) -> list[str]:
+        """The families sampling may return: all of them but the dropped ones."""
+        return [name for name in self.families if name not in self.dropped]
 
     def sample(self, trial: optuna.Trial) -> dict[str, Any]:
         """Draw one config through the trial (TPE sees the conditional structure)."""
@@ -183,8 +189,19 @@ class SpaceSpec:
             return self.families[family].params[pname]
         return None
 
-    def freeze(self, values: Mapping[str, Any], reason: str) -> "SpaceSpec":
-        """A narrowed copy: each named parameter held at its value (``family`` keeps one family)."""
+    def freeze(self, values: Mapping[str, Any], reason: str, drop: tuple[str, ...] = ()) -> "SpaceSpec":
+        """A narrowed copy: each named parameter held at its value (``family`` keeps one family), and
+        the families in ``drop`` dropped.
+
+        A dropped family stays a choice of ``family``: the trial tables refuse a parameter whose
+        choices change, so the space records it as dropped and the sampler never returns it.
+        """
+        unknown = [name for name in drop if name not in self.families]
+        if unknown:
+            raise InputError(f"cannot drop unknown famil{'ies' if len(unknown) > 1 else 'y'} {', '.join(unknown)}",
+                             f"families are: {', '.join(self.families)}")
+        if drop and not [name for name in self.kept_families if name not in drop]:
+            raise InputError("cannot drop every family", "keep at least one family in the search")
         params = dict(self.params)
         families = {k: FamilySpec(dict(v.params), v.reason) for k, v in self.families.items()}
         for name, value in values.items():
@@ -203,7 +220,8 @@ class SpaceSpec:
                     inner = dict(families[family].params)
                     inner[pname] = fixed(value, reason)
                     families[family] = FamilySpec(inner, families[family].reason)
-        return replace(self, params=params, families=families, warm_starts=())
+        dropped = tuple(name for name in families if name in {*self.dropped, *drop})
+        return replace(self, params=params, families=families, warm_starts=(), dropped=dropped)
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -217,6 +235,7 @@ class SpaceSpec:
             "warm_starts": [dict(w) for w in self.warm_starts],
             "notes": list(self.notes),
             **({"trial_seconds": self.trial_seconds} if self.trial_seconds is not None else {}),
+            **({"dropped": list(self.dropped)} if self.dropped else {}),
         }
 
     def to_json(self) -> str:
@@ -239,6 +258,7 @@ class SpaceSpec:
             notes=tuple(data.get("notes", ())),
             family_reason=data.get("family_reason", ""),
             trial_seconds=data.get("trial_seconds"),
+            dropped=tuple(data.get("dropped", ())),
         )
 
     @classmethod
