@@ -6,6 +6,7 @@ wall and CPU seconds current, so a crash loses at most one heartbeat interval of
 
 from __future__ import annotations
 
+import contextlib
 import os
 import statistics
 import threading
@@ -131,9 +132,12 @@ def search(store: Store, record: StudyRecord, study: SearchStudy, space: SpaceSp
     except (KeyboardInterrupt, StopRequested) as exc:
         launch.stopped_by(exc)
         state = "interrupted"
-    except BaseException:
+    except BaseException as exc:
         launch.abandon()
         state = "crashed"
+        failure = store.translate(exc, "record a trial", record.name) if isinstance(exc, Exception) else None
+        if failure is not None and failure is not exc:
+            raise failure from exc
         raise
     finally:
         launch.close(state)
@@ -240,15 +244,27 @@ class _Launch:
         self.summary.stop_reason = f"stopped by {name}"
 
     def abandon(self) -> None:
-        """An error ends the launch: leave no trial of this process running."""
-        if self.trial is not None:
-            self.study.mark_interrupted(self.trial.number)
-        _mark_orphans_interrupted(self.study)
+        """An error ends the launch: leave no trial of this process running, where the store still
+        takes writes (a full disk or a lost connection leaves them to the next launch's recovery)."""
+        with contextlib.suppress(Exception):
+            if self.trial is not None:
+                self.study.mark_interrupted(self.trial.number)
+            _mark_orphans_interrupted(self.study)
 
     def close(self, state: str) -> None:
+        """Stop the runner and the heartbeat, and close the launch's ledger row.
+
+        After a failed launch the row is closed where the store allows; where it does not, the row
+        stays *running* and the next launch finds its process gone and closes it as crashed.
+        """
         self.runner.close()
-        self.heartbeat.stop()
-        self.store.end_launch(self.id, state=state, reason=self.summary.stop_reason or "error")
+        failed = state == "crashed"
+        try:
+            self.heartbeat.stop()
+            self.store.end_launch(self.id, state=state, reason=self.summary.stop_reason or "error")
+        except Exception:
+            if not failed:
+                raise
 
 
 def _stamp(study: SearchStudy, trial: Any, owner: dict[str, Any]) -> None:

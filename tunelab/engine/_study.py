@@ -29,6 +29,7 @@ class SearchStudy:
     study: optuna.Study
     storage: Any  # the store's LocalTrialStorage: buffered writes for the trials this process runs
     study_id: int
+    fresh: bool = False  # created by this call (a new study, or one whose creation was cut short)
 
     def queue(self, config: Mapping[str, Any], **attrs: Any) -> None:
         """Queue a config to run before the sampler's own (warm starts, retries)."""
@@ -88,12 +89,16 @@ def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, 
                          expected_trials=record.settings.get("expected_trials"))
     optuna.logging.set_verbosity(optuna.logging.WARNING)  # tunelab reports study creation itself
     storage = store.optuna_storage()
-    if create:
+    fresh = create
+    if not create:
+        try:
+            study = optuna.load_study(study_name=record.name, storage=storage, sampler=sampler, pruner=pruner)
+        except KeyError:  # the study's creation was cut short (a full disk) before its trial tables: complete it
+            fresh = True
+    if fresh:
         study = optuna.create_study(storage=storage, study_name=record.name, direction=record.direction,
                                     sampler=sampler, pruner=pruner)
-    else:
-        study = optuna.load_study(study_name=record.name, storage=storage, sampler=sampler, pruner=pruner)
-    return SearchStudy(study, storage, storage.get_study_id_from_name(record.name))
+    return SearchStudy(study, storage, storage.get_study_id_from_name(record.name), fresh=fresh)
 
 
 def make_sampler(kind: str, seed: int, dropped: tuple[str, ...] = ()) -> optuna.samplers.BaseSampler:

@@ -10,6 +10,7 @@ import hashlib
 import io
 import json
 import zipfile
+import zlib
 from pathlib import Path
 from typing import Any
 
@@ -17,6 +18,7 @@ import joblib
 import pandas as pd
 
 from tunelab.errors import ModelFileError
+from tunelab.files import write_atomically
 
 FORMAT = "tunelab-model"
 FORMAT_VERSION = 1
@@ -29,11 +31,12 @@ def write_model_file(path: Path, pipeline: Any, meta: dict[str, Any]) -> str:
     payload = buffer.getvalue()
     meta = {**meta, "format": FORMAT, "format_version": FORMAT_VERSION,
             "pipeline_sha256": hashlib.sha256(payload).hexdigest()}
-    tmp = path.with_name(path.name + ".partial")
-    with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_STORED) as archive:
-        archive.writestr("meta.json", json.dumps(meta, indent=2, default=str))
-        archive.writestr("pipeline.joblib", payload)
-    tmp.replace(path)
+    def write(tmp: Path) -> None:
+        with zipfile.ZipFile(tmp, "w", compression=zipfile.ZIP_STORED) as archive:
+            archive.writestr("meta.json", json.dumps(meta, indent=2, default=str))
+            archive.writestr("pipeline.joblib", payload)
+
+    write_atomically(path, write, "model file")
     return hashlib.sha256(path.read_bytes()).hexdigest()
 
 
@@ -44,8 +47,13 @@ def read_meta(path: Path) -> dict[str, Any]:
     try:
         with zipfile.ZipFile(path) as archive:
             meta = json.loads(archive.read("meta.json"))
-    except (zipfile.BadZipFile, KeyError, json.JSONDecodeError) as exc:
+    except (zipfile.BadZipFile, KeyError, EOFError, zlib.error, json.JSONDecodeError, UnicodeDecodeError) as exc:
+        if _zip_header(path) and "meta.json" in _names(path):  # a model file that got damaged
+            raise ModelFileError(f"model file {path} is damaged ({_first_line(exc)})", _EXPORT_AGAIN) from exc
         raise ModelFileError(f"{path} is not a tunelab model file", "export one with `tunelab export`") from exc
+    except OSError as exc:
+        raise ModelFileError(f"cannot read the model file {path}: {exc.strerror or exc}",
+                             "check the path and its permissions") from exc
     if meta.get("format") != FORMAT:
         raise ModelFileError(f"{path} is not a tunelab model file", "export one with `tunelab export`")
     if meta.get("format_version", 0) > FORMAT_VERSION:
@@ -65,9 +73,34 @@ def check_columns(meta: dict[str, Any], frame: pd.DataFrame) -> None:
 
 def load_pipeline(path: Path, meta: dict[str, Any]) -> Any:
     """Unpickle the pipeline after its sha256 matches the one recorded at export."""
-    with zipfile.ZipFile(path) as archive:
-        payload = archive.read("pipeline.joblib")
+    try:
+        with zipfile.ZipFile(path) as archive:
+            payload = archive.read("pipeline.joblib")
+    except (zipfile.BadZipFile, KeyError, EOFError, zlib.error, OSError) as exc:
+        raise ModelFileError(f"model file {path} is damaged ({_first_line(exc)})", _EXPORT_AGAIN) from exc
     if hashlib.sha256(payload).hexdigest() != meta.get("pipeline_sha256"):
         raise ModelFileError(f"{path} was altered after export (pipeline hash differs)",
                              "export the model again; do not load a file you cannot trust")
     return joblib.load(io.BytesIO(payload))
+
+
+_EXPORT_AGAIN = "export the model again from its study: tunelab export STUDY --out FILE"
+
+
+def _zip_header(path: Path) -> bool:
+    with open(path, "rb") as handle:
+        return handle.read(4) == b"PK\x03\x04"
+
+
+def _names(path: Path) -> list[str]:
+    """The member names a zip's directory lists, or none when even that cannot be read."""
+    try:
+        with zipfile.ZipFile(path) as archive:
+            return archive.namelist()
+    except (zipfile.BadZipFile, OSError, EOFError):
+        return []
+
+
+def _first_line(exc: BaseException) -> str:
+    lines = str(exc).strip().splitlines()
+    return lines[0] if lines else type(exc).__name__

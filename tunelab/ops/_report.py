@@ -11,7 +11,8 @@ from pathlib import Path
 from typing import Any
 
 from tunelab.engine import Clock, SystemClock
-from tunelab.errors import InputError, TunelabError
+from tunelab.errors import InputError
+from tunelab.files import write_atomically
 from tunelab.insight import (
     GENERATOR,
     BestTrial,
@@ -60,15 +61,7 @@ def write_report(name: str, *, store: str | None = None, out: Path | None = None
     _check_out(path)
     data = report_data(name, store=store, clock=clock, options=options)
     page = render_report(data).encode("utf-8")
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
-        tmp.write_bytes(page)
-        os.replace(tmp, path)
-    except OSError as exc:
-        with contextlib.suppress(OSError):
-            tmp.unlink()
-        raise InputError(f"cannot write the report to {path}: {exc.strerror or exc}",
-                         "choose an --out path in a folder you can write to") from exc
+    write_atomically(path, lambda tmp: tmp.write_bytes(page), "report")
     total = sum(data.counts[s] for s in ("complete", "pruned", "failed", "interrupted"))
     return ReportResult(data.study, str(path), total, data.best.value if data.best else None, data.metric, len(page))
 

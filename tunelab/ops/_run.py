@@ -108,6 +108,8 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
     With ``look``, the result carries the first look at the decisions (``FIRST_LOOK_SECONDS`` of
     work after the launch closes, not charged to the budget).
     """
+    if request.study is not None and not request.study.strip():
+        raise InputError("--study is empty", "give the study a name, or leave out --study to name it after the data file")
     clock = clock or SystemClock()
     dataset = load_dataset(request.data, request.target, request.task)
     metric = resolve_metric(request.metric, dataset.task)
@@ -194,6 +196,9 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
         launches = len(st.launches(record.id))
         study = open_search_study(st, record, launch_number=launches, create=False,
                                   salt=os.getpid() if kind == "worker" else 0, dropped=space.dropped)
+        if study.fresh:  # its creation was cut short before the warm starts were queued
+            for config in space.warm_starts:
+                study.queue(config, **{keys.WARM_START: True})
         settings = settings or SearchSettings()
         settings.phase = phases[-1].number
         settings.kind = kind

@@ -14,6 +14,7 @@ import pandas as pd
 from tunelab import __version__
 from tunelab.data import clean_column, load_dataset, read_table
 from tunelab.engine import Clock, SystemClock
+from tunelab.files import write_atomically
 from tunelab.values import plain
 from tunelab.errors import InputError, ModelFileError, StudyStateError
 from tunelab.models import build_pipeline, capped_rows, row_cap
@@ -107,7 +108,7 @@ def predict_file(model: Path, data: Path, out: Path) -> PredictResult:
                 result[f"proba_{cls}"] = proba[:, i]
     if not out.parent.exists():
         raise InputError(f"folder {out.parent} does not exist", "create it, or choose another --out")
-    result.to_csv(out, index=False)
+    write_atomically(out, lambda tmp: result.to_csv(tmp, index=False), "predictions file")
     return PredictResult(str(out), len(result), list(result.columns), extra)
 
 

@@ -26,6 +26,8 @@ from tunelab.store._location import Location, check_sqlite_file, resolve
 from tunelab.store._records import TrialRecord, best_of, record_of
 
 BUSY_TIMEOUT_S = 60
+WAL_CHECKPOINT_PAGES = 128
+WAL_LIMIT_BYTES = 1 << 20
 CONNECT_TIMEOUT_S = 5
 
 
@@ -111,10 +113,7 @@ class Store:
             engine = create_engine(location.url, connect_args={"timeout": BUSY_TIMEOUT_S})
             event.listen(engine, "connect", _sqlite_pragmas)
         else:
-            kwargs: dict[str, Any] = {"pool_pre_ping": True}
-            if location.url.startswith("postgresql"):
-                kwargs["connect_args"] = {"connect_timeout": CONNECT_TIMEOUT_S}
-            engine = create_engine(location.url, **kwargs)
+            engine = _server_engine(location)
         store = cls(location, engine)
         try:
             store._check_schema(create)
@@ -129,6 +128,14 @@ class Store:
             if "tl_meta" in tables:
                 with self.engine.connect() as conn:
                     row = conn.execute(select(s.meta.c.value).where(s.meta.c.key == "schema_version")).first()
+                if row is None and self._unfinished_init(tables):
+                    # SQLite's driver commits each CREATE TABLE on its own: a fault while the store
+                    # was first set up can leave tables without their version row.  Finish the setup.
+                    if not create:
+                        raise StoreError(f"store {self.location.display()} has no studies yet",
+                                         "start one with `tunelab run`")
+                    self._initialise()
+                    return
                 version = int(row[0]) if row else 0
                 if version > s.SCHEMA_VERSION:
                     raise StoreError(
@@ -142,12 +149,23 @@ class Store:
                                  "pass another --store; tunelab does not write into foreign databases")
             if not create:
                 raise StoreError(f"store {self.location.display()} has no studies yet", "start one with `tunelab run`")
-            if self.location.path is not None:
-                with self.engine.connect() as conn:
-                    conn.exec_driver_sql("PRAGMA journal_mode=WAL")
-            with self.engine.begin() as conn:
-                s.metadata.create_all(conn)
-                conn.execute(s.meta.insert().values(key="schema_version", value=str(s.SCHEMA_VERSION)))
+            self._initialise()
+
+    def _unfinished_init(self, tables: set[str]) -> bool:
+        """Whether the store's tables exist without a version row and without any study."""
+        if "tl_study" not in tables:
+            return True
+        with self.engine.connect() as conn:
+            return conn.execute(select(func.count()).select_from(s.studies)).scalar() == 0
+
+    def _initialise(self) -> None:
+        """Create the store's tables (those missing) and its version row."""
+        if self.location.path is not None:
+            with self.engine.connect() as conn:
+                conn.exec_driver_sql("PRAGMA journal_mode=WAL")
+        with self.engine.begin() as conn:
+            s.metadata.create_all(conn, checkfirst=True)
+            conn.execute(s.meta.insert().values(key="schema_version", value=str(s.SCHEMA_VERSION)))
 
     def _migrate(self, version: int) -> None:
         """Bring an older schema up to date, one step per version, each in its own transaction."""
@@ -183,6 +201,21 @@ class Store:
             raise StoreError(f"store error while trying to {doing}: {_first_line(exc)}",
                              "run again with --debug for details") from exc
 
+    def translate(self, exc: BaseException, doing: str, study: str | None = None) -> StoreError | None:
+        """The store error behind ``exc`` (a database error anywhere in its chain, optuna's
+        included), as one line that says what to do; ``None`` when the database is not the cause."""
+        seen = exc
+        while seen is not None:
+            if isinstance(seen, StoreError):
+                return seen
+            if isinstance(seen, DBAPIError):
+                return _store_error(self.location, doing, seen, study)
+            seen = seen.__cause__ or seen.__context__  # type: ignore[assignment]
+        if isinstance(exc, SQLAlchemyError) or type(exc).__name__ == "StorageInternalError":
+            return StoreError(f"store error while trying to {doing}: {_first_line(exc)}",
+                              "run again with --debug for details")
+        return None
+
     def optuna_storage(self) -> Any:
         """optuna's RDB storage on the same database (trials, params, intermediate values).
 
@@ -200,7 +233,11 @@ class Store:
             elif self.location.url.startswith("postgresql"):
                 kwargs["connect_args"] = {"connect_timeout": CONNECT_TIMEOUT_S}
             with self._translate("open the trial tables"):
-                self._optuna = LocalTrialStorage(optuna.storages.RDBStorage(self.location.url, engine_kwargs=kwargs))
+                backend = optuna.storages.RDBStorage(self.location.url, engine_kwargs=kwargs)
+                if self.location.path is not None:  # optuna's own connections get the store's pragmas too
+                    event.listen(backend.engine, "connect", _sqlite_pragmas)
+                    backend.engine.dispose()
+                self._optuna = LocalTrialStorage(backend)
         return self._optuna
 
     # ---- studies ---------------------------------------------------------------------------
@@ -405,10 +442,31 @@ def union_length(intervals: list[tuple[float, float]]) -> float:
     return total
 
 
+def _server_engine(location: Location) -> Engine:
+    """An engine for a database server URL; an unknown kind of database or a missing driver is a
+    store error naming the URL's scheme, not a traceback."""
+    from sqlalchemy.exc import ArgumentError
+
+    kwargs: dict[str, Any] = {"pool_pre_ping": True}
+    if location.url.startswith("postgresql"):
+        kwargs["connect_args"] = {"connect_timeout": CONNECT_TIMEOUT_S}
+    scheme = location.url.split("://", 1)[0]
+    try:
+        return create_engine(location.url, **kwargs)
+    except (ArgumentError, ImportError) as exc:
+        raise StoreError(f"cannot use store URL scheme '{scheme}': {_first_line(exc)}",
+                         "use a file path, sqlite:///PATH or postgresql://USER@HOST/DB") from exc
+
+
 def _sqlite_pragmas(dbapi_conn: Any, _record: Any) -> None:
     cursor = dbapi_conn.cursor()
     cursor.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_S * 1000}")
     cursor.execute("PRAGMA foreign_keys=ON")
+    # Keep the write-ahead log small: by default it grows to 1,000 pages (4 MB) before a checkpoint
+    # and is never shrunk, which on a nearly full disk is what fills it (seen on a 4 MB mount: a
+    # 160 KB store beside a 3.9 MB log).
+    cursor.execute(f"PRAGMA wal_autocheckpoint={WAL_CHECKPOINT_PAGES}")
+    cursor.execute(f"PRAGMA journal_size_limit={WAL_LIMIT_BYTES}")
     cursor.close()
 
 
@@ -438,10 +496,13 @@ def _first_line(exc: BaseException) -> str:
     return text[0] if text else type(exc).__name__
 
 
-def _store_error(location: Location, doing: str, exc: DBAPIError) -> StoreError:
+def _store_error(location: Location, doing: str, exc: DBAPIError, study: str | None = None) -> StoreError:
     text = _first_line(exc.orig if exc.orig is not None else exc)
     where = location.display()
     lowered = text.lower()
+    again = f"tunelab resume {study}" if study else "run the command again"
+    if "disk is full" in lowered or "no space left" in lowered or "disk full" in lowered:
+        return StoreError(f"disk full at {where}", f"free space, then {again}")
     if "not a database" in lowered or "malformed" in lowered:
         return StoreError(f"{where} is corrupt or not a SQLite database", "pass another --store; keep the file for inspection")
     if "authentication" in lowered or ("role" in lowered and "does not exist" in lowered):
@@ -449,6 +510,10 @@ def _store_error(location: Location, doing: str, exc: DBAPIError) -> StoreError:
     if "could not connect" in lowered or "connection refused" in lowered or "timeout expired" in lowered \
             or "could not translate host" in lowered:
         return StoreError(f"cannot reach the database at {where}: {text}", "check the host, port and that the server runs")
+    if "server closed the connection" in lowered or "connection" in lowered and ("lost" in lowered or "closed" in lowered
+                                                                              or "terminat" in lowered):
+        return StoreError(f"lost the connection to the database at {where}: {text}",
+                          f"check the network and the server, then {again}")
     if "does not exist" in lowered and "database" in lowered:
         return StoreError(f"database in {where} does not exist: {text}", "create it first, e.g. createdb NAME")
     if "readonly" in lowered or "read-only" in lowered or "permission" in lowered:
