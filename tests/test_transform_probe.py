@@ -18,7 +18,7 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import StandardScaler
 
 from tunelab.data import prepare_frame
-from tunelab.engine._folds import make_folds
+from tunelab.evaluation import make_folds
 from tunelab.space import probe_transforms
 
 

@@ -31,6 +31,7 @@ from tunelab.data import Dataset
 from tunelab.space._transform_probe import TransformProbe
 from tunelab.data._metafeatures import MetaFeatures, scaled_cost, type3_moments
 from tunelab.data._shared_scale import SHARED_SCALE_MAX_RATIO, shares_one_scale
+from tunelab.evaluation import DEFAULT_METRIC, fold_count
 from tunelab.models._families import MLP_RUNGS
 from tunelab.models._row_cap import ROWS_KEY
 from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
@@ -158,10 +159,6 @@ class _Decision:
 
 def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None,
            transform_probe: TransformProbe | None = None) -> _Facts:
-    # the study's own fold rule and default metric; imported here because the engine imports space
-    from tunelab.engine._folds import fold_count
-    from tunelab.engine._metrics import DEFAULT_METRIC
-
     n_rows = dataset.n_rows
     n_folds = fold_count(n_rows, dataset.task, dataset.y)
     cols = [c for c in dataset.columns if c.role != "id"]

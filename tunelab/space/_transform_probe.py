@@ -23,6 +23,7 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
+from tunelab.evaluation import make_folds, resolve_metric, score
 
 PROBE_ROWS = 1000  # rows of the sample: a few seconds at most for three maps × three folds
 PROBE_FOLDS = 3
@@ -60,10 +61,6 @@ def probe_transforms(dataset: Dataset, metric: str | None, choices: Sequence[str
     Nothing here may stop a profile: a map whose fit fails or whose folds give no finite score is
     left out, and the probe stops at ``time_cap_s`` (checked before each fit).
     """
-    # imported here: the engine imports the space package
-    from tunelab.engine._folds import make_folds
-    from tunelab.engine._metrics import resolve_metric
-
     roles = dataset.roles
     if not any(role == "numeric" for role in roles.values()) or dataset.n_rows < 4 * PROBE_FOLDS:
         return None
@@ -91,7 +88,6 @@ def probe_transforms(dataset: Dataset, metric: str | None, choices: Sequence[str
 def _scores(X: Any, y: np.ndarray, folds: Sequence[tuple[np.ndarray, np.ndarray]], choices: Sequence[str],
             roles: Mapping[str, str], cardinality: Mapping[str, int], task: str, metric: Any, seed: int,
             out_of_time: Callable[[], bool]) -> dict[str, float]:
-    from tunelab.engine._metrics import score
     from tunelab.models import build_pipeline
 
     scores: dict[str, float] = {}
