@@ -21,11 +21,12 @@ import pytest
 from sklearn import datasets as skdata
 
 from tunelab.data import Dataset, prepare_frame
-from tunelab.data._metafeatures import SCALING_RULES, CostProbe, MetaFeatures, compute_metafeatures
+from tunelab.facts import MetaFeatures, compute_metafeatures
 from tunelab.models import build_pipeline
 from tunelab.models._families import MLP_RUNGS, mlp_rung_params
 from tunelab.models._preprocess import build_preprocessor, signed_log1p
-from tunelab.space import FAMILY_NAMES, SpaceSpec, TransformProbe, build_space
+from tunelab.probes import SCALING_RULES, CostProbe, TransformProbe
+from tunelab.space import FAMILY_NAMES, SpaceSpec, build_space
 
 CHEAP = {f: 0.001 for f in FAMILY_NAMES}  # seconds per fit on all rows: every family affordable
 

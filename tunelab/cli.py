@@ -332,8 +332,8 @@ def profile(
     Example: tunelab profile sales.csv --target churned --budget 30m --write-space space.json
     """
     from tunelab import _render as r
-    from tunelab.data._similarity import similarity_vector
     from tunelab.engine import parse_duration
+    from tunelab.facts import similarity_vector
     from tunelab.ops import profile_data
     from tunelab.ops._learn import similar_studies
 

@@ -1,38 +1,28 @@
-"""Dataset meta-features: what the search-space builder knows about a dataset before any trial.
+"""The data's own meta-features: the groups that read the data without fitting a model.
 
 The groups follow Rivolli, Garcia, Soares, Vanschoren and de Carvalho (2022), "Meta-features
 for meta-learning", Knowledge-Based Systems: *simple* (counts and shares), *statistical*
-(moments, correlation, outliers), *information-theoretic* (entropies, mutual information) and
-*landmarkers* (cross-validated scores of fast, simple learners).  A fifth group, *cost
-probes*, is tunelab's own: measured seconds per fit of every model family on a small
-subsample, extrapolated to the full data, so that the budget can be split before the first
-trial runs.
+(moments, correlation, outliers) and *information-theoretic* (entropies, mutual information).
+Their fourth group, *landmarkers*, and tunelab's *cost probes* fit models and live in
+:mod:`tunelab.probes`; :mod:`tunelab.facts` puts the five together.
 
 Definitions are chosen to agree with the reference implementation ``pymfe`` where it
 defines the same quantity (skewness and kurtosis "type 3", equal-frequency discretisation with
-``floor(n ** (1/3))`` bins for mutual information, entropies in bits, accuracy over 10-fold
-stratified cross-validation for landmarkers).  Landmarkers use pymfe's optional protocol
-(shuffled folds, features standardised first: ``MFE(shuffle_cv_folds=True)`` with
-``fit(rescale="standard")``) rather than its default (unshuffled folds on raw values), because
-1-NN on raw values measures the units of the columns more than the data.  The tests check
-the agreement on scikit-learn's bundled data sets.  Where tunelab goes beyond pymfe (missing
+``floor(n ** (1/3))`` bins for mutual information, entropies in bits).  The tests check the
+agreement on scikit-learn's bundled data sets.  Where tunelab goes beyond pymfe (missing
 values, categorical / text / datetime columns, regression targets) the rule is stated in the
 docstring of the function that applies it.
 
 Everything is bounded in time: statistics and mutual information use at most
-``_STATS_MAX_ROWS`` rows, landmarkers at most ``max_rows`` rows and ``time_cap_s`` seconds
-each, cost probes ``probe_rows`` rows, so 50,000 rows x 50 columns take a few seconds.
+``_STATS_MAX_ROWS`` rows, so 50,000 rows x 50 columns take a fraction of a second.
 """
 
 from __future__ import annotations
 
-import math
-import time
 import warnings
-from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass, fields, is_dataclass
-from types import MappingProxyType
-from typing import TYPE_CHECKING, Any
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -40,48 +30,10 @@ import pandas as pd
 from tunelab.data._roles import ROLES
 from tunelab.data._task import TASKS, Task
 from tunelab.errors import InputError
-from tunelab.values import plain
-
-if TYPE_CHECKING:  # pragma: no cover - imported lazily at run time to keep start-up fast
-    from sklearn.base import BaseEstimator
-
-COST_FAMILIES: tuple[str, ...] = (
-    "linear",
-    "knn",
-    "random_forest",
-    "extra_trees",
-    "hist_gb",
-    "svm",
-    "mlp",
-)
-
-# How the cost of one fit (plus one prediction pass) grows with the number of rows n, for a
-# fixed set of columns and hyperparameters.  Common practice, no source: linear models,
-# histogram boosting and MLPs do a fixed number of passes over the data; tree ensembles sort
-# at every split (n log n); brute-force nearest neighbours compare every query with every
-# training row, and kernel SVMs solve a problem over the n x n kernel matrix (between n^2 and
-# n^3; n^2 is the usual planning figure).
-SCALING_RULES: Mapping[str, str] = MappingProxyType(
-    {
-        "linear": "n",
-        "knn": "n^2",
-        "random_forest": "n log n",
-        "extra_trees": "n log n",
-        "hist_gb": "n",
-        "svm": "n^2",
-        "mlp": "n",
-    }
-)
-
-LANDMARKERS: tuple[str, ...] = ("one_nn", "decision_stump", "naive_bayes", "linear")
 
 _STATS_MAX_ROWS = 50_000  # rows used for statistics, mutual information and token counts
-_LANDMARK_FOLDS = 10  # Rivolli et al. (2022) and pymfe both use 10-fold cross-validation
 _MAX_ONE_HOT_LEVELS = 10  # most frequent levels of a categorical kept as indicator columns
 _OUTLIER_WHISKER = 1.5  # Tukey's fences: outside [Q1 - 1.5 IQR, Q3 + 1.5 IQR]
-_REPEAT_BELOW_S = 0.05  # a probe faster than this is repeated and the fastest run kept
-_PROBE_REPEATS = 3
-
 
 # --------------------------------------------------------------------------------------
 # Value objects
@@ -192,106 +144,12 @@ class InformationFeatures:
 
 
 @dataclass(frozen=True)
-class Landmarkers:
-    """Cross-validated scores of four fast learners (Rivolli et al. 2022, "landmarking").
+class DataDescription:
+    """The three groups that read the data alone (Rivolli et al. 2022: simple, statistical, information)."""
 
-    Attributes
-    ----------
-    metric
-        ``"accuracy"`` for classification, ``"r2"`` for regression.
-    one_nn, decision_stump, naive_bayes, linear
-        Mean score over the folds; ``None`` when skipped (the reason is in ``notes``).
-        ``naive_bayes`` is ``None`` for regression.  ``linear`` is linear discriminant
-        analysis for classification and ridge regression for regression.
-    rows_used
-        Rows in the landmarking sample (at most ``max_rows``).
-    n_folds
-        Folds of the (stratified, for classification) shuffled k-fold split.
-    notes
-        Landmarker name to the reason it was skipped.
-    """
-
-    metric: str
-    one_nn: float | None
-    decision_stump: float | None
-    naive_bayes: float | None
-    linear: float | None
-    rows_used: int
-    n_folds: int
-    notes: Mapping[str, str]
-
-
-@dataclass(frozen=True)
-class CostProbe:
-    """Measured and extrapolated cost of one fit of a model family.
-
-    Attributes
-    ----------
-    family
-        One of :data:`COST_FAMILIES`.
-    model
-        The estimator and settings that were timed.
-    probe_rows
-        Rows of the probe sample.
-    probe_seconds
-        CPU seconds (this thread's) of one fit plus one prediction pass of ``model`` on the probe
-        sample, on one thread (the fastest of up to three runs when a run is shorter than
-        50 ms; ensembles and the MLP are timed at a fifth of the work and multiplied by 5).
-    estimated_seconds
-        ``probe_seconds`` scaled to all rows by ``scaling``; ``None`` when the probe failed.
-    scaling
-        Growth of the cost with the rows ``n`` (see :data:`SCALING_RULES`).
-    note
-        Why the probe failed, or an empty string.
-    """
-
-    family: str
-    model: str
-    probe_rows: int
-    probe_seconds: float | None
-    estimated_seconds: float | None
-    scaling: str
-    note: str = ""
-
-
-@dataclass(frozen=True)
-class MetaFeatures:
-    """All meta-features of one dataset, grouped as in Rivolli et al. (2022).
-
-    Frozen; the mappings inside are plain dicts, to be read only, so that the object
-    pickles to worker processes.
-
-    Attributes
-    ----------
-    task
-        ``"binary"``, ``"multiclass"`` or ``"regression"``.
-    simple, statistical, information, landmarkers
-        The four groups of Rivolli et al. (2022).
-    cost
-        Family name to :class:`CostProbe`, in the order of :data:`COST_FAMILIES`.
-    seconds
-        Wall-clock seconds the computation took.
-    """
-
-    task: str
     simple: SimpleFeatures
     statistical: StatisticalFeatures
     information: InformationFeatures
-    landmarkers: Landmarkers
-    cost: Mapping[str, CostProbe]
-    seconds: float
-
-    def to_dict(self) -> dict[str, Any]:
-        """Return plain dicts, lists, numbers, strings and ``None``, ready for ``json.dumps``.
-
-        Returns
-        -------
-        dict
-            One key per group, nested the same way as the dataclasses.
-        """
-        result = plain(self)
-        assert isinstance(result, dict)
-        return result
 
 
 # --------------------------------------------------------------------------------------
@@ -299,24 +157,15 @@ class MetaFeatures:
 # --------------------------------------------------------------------------------------
 
 
-def compute_metafeatures(
+def describe_data(
     X: pd.DataFrame,
     y: np.ndarray,
     task: Task,
     roles: Mapping[str, str],
     *,
-    seed: int = 0,
-    max_rows: int = 5000,
-    time_cap_s: float = 2.0,
-    probe_rows: int = 500,
-    clock: Callable[[], float] = time.perf_counter,
-    probe_clock: Callable[[], float] = time.thread_time,
-) -> MetaFeatures:
-    """Describe a dataset with meta-features, in bounded time.
-
-    The space builder uses these to set priors and to split the budget between model
-    families before any trial has run, so every part is capped in rows or seconds rather
-    than exact on huge data.
+    rng: np.random.Generator,
+) -> DataDescription:
+    """Describe a dataset by the meta-features that need no model, on a bounded row sample.
 
     Parameters
     ----------
@@ -330,29 +179,14 @@ def compute_metafeatures(
     roles
         Column name to ``"numeric"``, ``"categorical"``, ``"text"``, ``"datetime"`` or
         ``"id"``; every column of ``X`` needs one.
-    seed
-        Seeds every subsample, fold split and randomised model.
-    max_rows
-        Rows of the landmarking sample.
-    time_cap_s
-        Seconds each landmarker may take; a landmarker that reaches the cap, or would pass it
-        with its next fold, is skipped (``None``, with the reason in ``Landmarkers.notes``).
-        ``0`` skips all landmarkers.
-    probe_rows
-        Rows of the sample each model family is timed on.
-    clock
-        Monotonic clock in seconds; a seam for tests.  It times the landmarkers (their caps
-        are wall-clock limits) and the whole computation.
-    probe_clock
-        The clock of the cost probes: this thread's CPU seconds, so that the space built
-        from them does not change with what else the machine runs (wall-clock probes on a
-        busy machine kept SVM in one profile of a table and not in the next).  The probes
-        fit on one thread, as trials do.
+    rng
+        Draws the rows the statistics are computed on when the data has more than
+        ``_STATS_MAX_ROWS``.
 
     Returns
     -------
-    MetaFeatures
-        The five groups; :meth:`MetaFeatures.to_dict` gives the JSON form.
+    DataDescription
+        The simple, statistical and information-theoretic groups.
 
     Raises
     ------
@@ -360,67 +194,24 @@ def compute_metafeatures(
         When ``task`` is unknown, a column has no or an unknown role, ``y`` does not match
         ``X`` in length, or there are no rows or no feature columns.
     """
-    started = clock()
-    col_roles = _check_inputs(X, y, task, roles, max_rows=max_rows, probe_rows=probe_rows)
+    col_roles = _check_inputs(X, y, task, roles)
     y_arr = np.asarray(y)
-    n_rows = len(X)
-    stats_seq, landmark_seq, probe_seq = np.random.SeedSequence(seed).spawn(3)
-    stats_rows = _sample_rows(n_rows, _STATS_MAX_ROWS, np.random.default_rng(stats_seq))
-    landmark_rows = _sample_rows(n_rows, max_rows, np.random.default_rng(landmark_seq))
-    probe_sample = _sample_rows(n_rows, probe_rows, np.random.default_rng(probe_seq))
-    classification = task != "regression"
-    y_codes = _class_codes(y_arr) if classification else None
-    target = y_codes if y_codes is not None else y_arr
-
-    # One BLAS / OpenMP thread throughout: on a shared 2-core machine, two threads under
-    # contention were measured up to 10x slower, and the probes are meant as per-worker
-    # costs.  The limit only reaches libraries already loaded, hence the imports first.
-    import sklearn.discriminant_analysis  # noqa: F401
-    import sklearn.ensemble  # noqa: F401
-    import sklearn.neighbors  # noqa: F401
-    import sklearn.svm  # noqa: F401
-    from threadpoolctl import threadpool_limits
-
-    with threadpool_limits(limits=1):
-        simple = _simple_features(X, col_roles, roles, y_codes, stats_rows)
-        statistical = _statistical_features(X, col_roles, stats_rows)
-        information = _information_features(X, col_roles, y_arr, y_codes, stats_rows)
-        landmarkers = _landmarkers(
-            _design_matrix(X, col_roles, landmark_rows),
-            target[landmark_rows],
-            classification,
-            seed=seed,
-            time_cap_s=time_cap_s,
-            clock=clock,
-        )
-        cost = _cost_probes(
-            _design_matrix(X, col_roles, probe_sample),
-            target[probe_sample],
-            n_rows,
-            classification,
-            seed=seed,
-            clock=probe_clock,
-        )
-    return MetaFeatures(
-        task=task,
-        simple=simple,
-        statistical=statistical,
-        information=information,
-        landmarkers=landmarkers,
-        cost=cost,
-        seconds=float(clock() - started),
+    stats_rows = sample_rows(len(X), _STATS_MAX_ROWS, rng)
+    y_codes = _class_codes(y_arr) if task != "regression" else None
+    return DataDescription(
+        simple=_simple_features(X, col_roles, roles, y_codes, stats_rows),
+        statistical=_statistical_features(X, col_roles, stats_rows),
+        information=_information_features(X, col_roles, y_arr, y_codes, stats_rows),
     )
 
 
-def _check_inputs(
-    X: pd.DataFrame,
-    y: Any,
-    task: str,
-    roles: Mapping[str, str],
-    *,
-    max_rows: int,
-    probe_rows: int,
-) -> dict[str, str]:
+def learning_target(y: np.ndarray, task: str) -> np.ndarray:
+    """The target as learners take it: class codes ``0 .. k-1`` for classification, the values otherwise."""
+    y_arr = np.asarray(y)
+    return _class_codes(y_arr) if task != "regression" else y_arr
+
+
+def _check_inputs(X: pd.DataFrame, y: Any, task: str, roles: Mapping[str, str]) -> dict[str, str]:
     """Validate and return the roles of the feature columns of ``X`` (id columns left out)."""
     if task not in TASKS:
         raise InputError(
@@ -433,10 +224,16 @@ def _check_inputs(
             f"the target has {len(np.asarray(y))} values but the data has {len(X)} rows",
             hint="pass the target column of the same frame",
         )
-    if max_rows < 2 or probe_rows < 2:
+    col_roles = _feature_roles(X, roles)
+    if not col_roles:
         raise InputError(
-            "max_rows and probe_rows must be at least 2", hint="use the defaults (5000, 500)"
+            "the data has no feature columns", hint="keep at least one non-id column"
         )
+    return col_roles
+
+
+def _feature_roles(X: pd.DataFrame, roles: Mapping[str, str]) -> dict[str, str]:
+    """The role of every non-id column of ``X``, in the frame's order; refuses missing or unknown roles."""
     col_roles: dict[str, str] = {}
     for column in X.columns:
         role = roles.get(column)
@@ -451,14 +248,10 @@ def _check_inputs(
             )
         if role != "id":
             col_roles[str(column)] = role
-    if not col_roles:
-        raise InputError(
-            "the data has no feature columns", hint="keep at least one non-id column"
-        )
     return col_roles
 
 
-def _sample_rows(n: int, cap: int, rng: np.random.Generator) -> np.ndarray:
+def sample_rows(n: int, cap: int, rng: np.random.Generator) -> np.ndarray:
     """All row positions when ``n <= cap``, else ``cap`` positions drawn without replacement.
 
     The sample is sorted so that data under the cap keeps its original order, which makes
@@ -713,13 +506,11 @@ def _datetime_seconds(s: pd.Series) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------------------
-# Design matrix shared by landmarkers and cost probes
+# Design matrix the probes fit on
 # --------------------------------------------------------------------------------------
 
 
-def _design_matrix(
-    X: pd.DataFrame, col_roles: Mapping[str, str], rows: np.ndarray
-) -> np.ndarray:
+def design_matrix(X: pd.DataFrame, roles: Mapping[str, str], rows: np.ndarray) -> np.ndarray:
     """A standardised float matrix of the sampled rows, for the learners that need numbers.
 
     Numeric columns as they are, datetimes as seconds since 1970, text as its token count,
@@ -732,6 +523,7 @@ def _design_matrix(
     """
     from sklearn.preprocessing import StandardScaler
 
+    col_roles = _feature_roles(X, roles)
     sub = X.iloc[rows]
     parts: list[np.ndarray] = []
     for column, role in col_roles.items():
@@ -758,305 +550,14 @@ def _design_matrix(
     return StandardScaler().fit_transform(matrix)
 
 
-# --------------------------------------------------------------------------------------
-# Landmarkers
-# --------------------------------------------------------------------------------------
-
-
-def _landmark_models(classification: bool, seed: int) -> dict[str, BaseEstimator | None]:
-    from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
-    from sklearn.linear_model import Ridge
-    from sklearn.naive_bayes import GaussianNB
-    from sklearn.neighbors import KNeighborsClassifier, KNeighborsRegressor
-    from sklearn.tree import DecisionTreeClassifier, DecisionTreeRegressor
-
-    if classification:
-        return {
-            "one_nn": KNeighborsClassifier(n_neighbors=1),
-            "decision_stump": DecisionTreeClassifier(max_depth=1, random_state=seed),
-            "naive_bayes": GaussianNB(),
-            # pymfe's linear_discr uses the default "svd" solver; "lsqr" fits the same
-            # pooled-covariance model three times faster (equal predictions at full rank).
-            "linear": LinearDiscriminantAnalysis(solver="lsqr"),
-        }
-    return {
-        "one_nn": KNeighborsRegressor(n_neighbors=1),
-        "decision_stump": DecisionTreeRegressor(max_depth=1, random_state=seed),
-        "naive_bayes": None,
-        "linear": Ridge(alpha=1.0),
-    }
-
-
-def _folds(
-    y: np.ndarray, classification: bool, seed: int
-) -> tuple[list[tuple[np.ndarray, np.ndarray]], str]:
-    """Shuffled k-fold splits (stratified for classes), or no splits and the reason.
-
-    Ten folds as in pymfe; fewer when the smallest class (or the data) is smaller than ten.
-    """
-    from sklearn.model_selection import KFold, StratifiedKFold
-
-    n = len(y)
-    if classification:
-        counts = np.bincount(y)
-        counts = counts[counts > 0]
-        if counts.size < 2:
-            return [], "skipped: the sample has a single class"
-        k = int(min(_LANDMARK_FOLDS, max(2, counts.min())))
-        splitter: Any = StratifiedKFold(n_splits=k, shuffle=True, random_state=seed)
-    else:
-        if n < 2:
-            return [], "skipped: fewer than 2 rows"
-        k = min(_LANDMARK_FOLDS, n)
-        splitter = KFold(n_splits=k, shuffle=True, random_state=seed)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", UserWarning)  # "least populated class has ..."
-        return list(splitter.split(np.zeros((n, 1)), y)), ""
-
-
-def _fold_score(y_true: np.ndarray, y_pred: np.ndarray, classification: bool) -> float:
-    if classification:
-        return float(np.mean(y_true == y_pred))
-    residual = float(((y_true - y_pred) ** 2).sum())
-    total = float(((y_true - y_true.mean()) ** 2).sum())
-    return 1.0 - residual / total if total > 0 else float("nan")
-
-
-def _landmarkers(
-    M: np.ndarray,
-    y: np.ndarray,
-    classification: bool,
-    *,
-    seed: int,
-    time_cap_s: float,
-    clock: Callable[[], float],
-) -> Landmarkers:
-    """Mean fold score of each landmarker, each stopped at ``time_cap_s`` seconds.
-
-    Folds run one after another; before each fold the landmarker is abandoned when the
-    time spent has reached the cap or the next fold, at the mean pace so far, would pass it.
-    A cap therefore bounds the time by about one fold over the cap, without threads.
-    """
-    from sklearn.base import clone
-
-    splits, split_note = _folds(y, classification, seed)
-    scores: dict[str, float | None] = {}
-    notes: dict[str, str] = {}
-    target = y if classification else np.asarray(y, dtype=float)
-    for name, model in _landmark_models(classification, seed).items():
-        scores[name] = None
-        if model is None:
-            notes[name] = "not defined for regression"
-            continue
-        if split_note:
-            notes[name] = split_note
-            continue
-        started = clock()
-        fold_scores: list[float] = []
-        for done, (train, test) in enumerate(splits):
-            spent = clock() - started
-            pace = spent / done if done else 0.0
-            if spent >= time_cap_s or spent + pace > time_cap_s:
-                notes[name] = (
-                    f"skipped: time cap of {time_cap_s:g} s reached after "
-                    f"{done} of {len(splits)} folds"
-                )
-                break
-            try:
-                with warnings.catch_warnings():
-                    warnings.simplefilter("ignore")  # collinear LDA, constant folds
-                    fitted = clone(model).fit(M[train], target[train])
-                    predicted = fitted.predict(M[test])
-            except Exception as exc:  # tiny or degenerate folds must not stop the profile
-                notes[name] = f"failed: {type(exc).__name__}: {exc}".splitlines()[0]
-                break
-            fold_scores.append(_fold_score(target[test], predicted, classification))
-        else:
-            finite = [s for s in fold_scores if math.isfinite(s)]
-            if finite:
-                scores[name] = float(np.mean(finite))
-            else:
-                notes[name] = "skipped: no fold gave a finite score"
-    return Landmarkers(
-        metric="accuracy" if classification else "r2",
-        one_nn=scores["one_nn"],
-        decision_stump=scores["decision_stump"],
-        naive_bayes=scores["naive_bayes"],
-        linear=scores["linear"],
-        rows_used=len(y),
-        n_folds=len(splits),
-        notes=notes,
-    )
-
-
-# --------------------------------------------------------------------------------------
-# Cost probes
-# --------------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class _Probe:
-    model: BaseEstimator  # the reduced configuration that is timed
-    description: str  # the configuration the estimate is for
-    work_factor: float  # estimate = measured time x work_factor (trees, iterations, epochs)
-
-
-def _probe_models(classification: bool, seed: int) -> dict[str, _Probe]:
-    """The estimator timed for each family.
-
-    Estimates are for library defaults with the work per fit fixed: 100 trees, 100 boosting
-    iterations without early stopping, 50 epochs of scikit-learn's MLP (one hidden layer of
-    100 units).  That MLP stands in for tunelab's torch MLP, whose own cost the space builder
-    derives from it with a measured correction (``tunelab.space._builder``).  To stay
-    fast, ensembles and the MLP are timed with a fifth of that work (20 trees, 20
-    iterations, 10 epochs) and multiplied by 5: cost grows linearly with the number of trees,
-    iterations or epochs (common practice, no source; it slightly over-counts fixed set-up
-    work such as binning).
-    """
-    from sklearn import ensemble, linear_model, neighbors, neural_network, svm
-
-    mlp = {"hidden_layer_sizes": (100,), "max_iter": 10, "tol": 0.0, "random_state": seed}
-    trees = {"n_estimators": 20, "random_state": seed}
-    boost = {"max_iter": 20, "early_stopping": False, "random_state": seed}
-    if classification:
-        return {
-            "linear": _Probe(
-                linear_model.LogisticRegression(max_iter=200), "LogisticRegression", 1
-            ),
-            "knn": _Probe(
-                neighbors.KNeighborsClassifier(), "KNeighborsClassifier(5 neighbours)", 1
-            ),
-            "random_forest": _Probe(
-                ensemble.RandomForestClassifier(**trees), "RandomForestClassifier(100 trees)", 5
-            ),
-            "extra_trees": _Probe(
-                ensemble.ExtraTreesClassifier(**trees), "ExtraTreesClassifier(100 trees)", 5
-            ),
-            "hist_gb": _Probe(
-                ensemble.HistGradientBoostingClassifier(**boost),
-                "HistGradientBoostingClassifier(100 iterations)",
-                5,
-            ),
-            "svm": _Probe(svm.SVC(), "SVC(rbf kernel)", 1),
-            "mlp": _Probe(
-                neural_network.MLPClassifier(**mlp), "MLPClassifier(100 units, 50 epochs)", 5
-            ),
-        }
-    return {
-        "linear": _Probe(linear_model.Ridge(), "Ridge", 1),
-        "knn": _Probe(neighbors.KNeighborsRegressor(), "KNeighborsRegressor(5 neighbours)", 1),
-        "random_forest": _Probe(
-            ensemble.RandomForestRegressor(**trees), "RandomForestRegressor(100 trees)", 5
-        ),
-        "extra_trees": _Probe(
-            ensemble.ExtraTreesRegressor(**trees), "ExtraTreesRegressor(100 trees)", 5
-        ),
-        "hist_gb": _Probe(
-            ensemble.HistGradientBoostingRegressor(**boost),
-            "HistGradientBoostingRegressor(100 iterations)",
-            5,
-        ),
-        "svm": _Probe(svm.SVR(), "SVR(rbf kernel)", 1),
-        "mlp": _Probe(
-            neural_network.MLPRegressor(**mlp), "MLPRegressor(100 units, 50 epochs)", 5
-        ),
-    }
-
-
-def scaled_cost(seconds: float, probe_rows: int, n_rows: int, scaling: str) -> float:
-    """Extrapolate a measured cost from ``probe_rows`` to ``n_rows`` rows.
-
-    Parameters
-    ----------
-    seconds
-        Cost measured on ``probe_rows`` rows.
-    probe_rows, n_rows
-        Rows measured on, and rows to estimate for.
-    scaling
-        ``"n"``, ``"n log n"`` or ``"n^2"`` (see :data:`SCALING_RULES`).
-
-    Returns
-    -------
-    float
-        ``seconds * g(n_rows) / g(probe_rows)`` for the growth function ``g``.
-
-    Raises
-    ------
-    ValueError
-        For an unknown ``scaling``.
-    """
-    growth: dict[str, Callable[[float], float]] = {
-        "n": lambda n: n,
-        "n log n": lambda n: n * math.log(max(n, 2.0)),
-        "n^2": lambda n: n * n,
-    }
-    if scaling not in growth:
-        raise ValueError(f"unknown scaling rule {scaling!r}")
-    g = growth[scaling]
-    return seconds * g(float(n_rows)) / g(float(probe_rows))
-
-
-def _cost_probes(
-    M: np.ndarray,
-    y: np.ndarray,
-    n_rows: int,
-    classification: bool,
-    *,
-    seed: int,
-    clock: Callable[[], float],
-) -> Mapping[str, CostProbe]:
-    """Time one fit plus one prediction pass per family, then extrapolate to ``n_rows``."""
-    target = y if classification else np.asarray(y, dtype=float)
-    probes: dict[str, CostProbe] = {}
-    for family, probe in _probe_models(classification, seed).items():
-        scaling = SCALING_RULES[family]
-        try:
-            seconds = _time_fit(probe.model, M, target, clock) * probe.work_factor
-        except Exception as exc:  # a failed probe must not stop the profile
-            note = f"probe failed: {type(exc).__name__}: {exc}".splitlines()[0]
-            probes[family] = CostProbe(
-                family, probe.description, len(y), None, None, scaling, note=note
-            )
-            continue
-        probes[family] = CostProbe(
-            family=family,
-            model=probe.description,
-            probe_rows=len(y),
-            probe_seconds=seconds,
-            estimated_seconds=scaled_cost(seconds, len(y), max(n_rows, len(y)), scaling),
-            scaling=scaling,
-        )
-    return probes
-
-
-def _time_fit(
-    model: BaseEstimator, M: np.ndarray, y: np.ndarray, clock: Callable[[], float]
-) -> float:
-    from sklearn.base import clone
-
-    best = math.inf
-    for _ in range(_PROBE_REPEATS):
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")  # convergence warnings of the short probes
-            started = clock()
-            clone(model).fit(M, y).predict(M)
-            seconds = clock() - started
-        best = min(best, seconds)
-        if seconds >= _REPEAT_BELOW_S:
-            break
-    return float(max(best, 1e-9))
-
-
 __all__ = [
-    "COST_FAMILIES",
-    "CostProbe",
+    "DataDescription",
     "InformationFeatures",
-    "LANDMARKERS",
-    "Landmarkers",
-    "MetaFeatures",
-    "SCALING_RULES",
     "SimpleFeatures",
     "StatisticalFeatures",
-    "compute_metafeatures",
-    "scaled_cost",
+    "describe_data",
+    "design_matrix",
+    "learning_target",
+    "sample_rows",
+    "type3_moments",
 ]

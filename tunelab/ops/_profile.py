@@ -14,9 +14,10 @@ from pathlib import Path
 from typing import Any
 
 from tunelab.data import Dataset, load_dataset
-from tunelab.data._metafeatures import MetaFeatures, compute_metafeatures
+from tunelab.facts import MetaFeatures, compute_metafeatures
 from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
-from tunelab.space import SpaceSpec, numeric_map_choices, probe_transforms
+from tunelab.probes import probe_transforms
+from tunelab.space import SpaceSpec, numeric_map_choices
 from tunelab.values import plain
 from tunelab.space._builder import build_space, numeric_shares_one_scale
 

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable
 
-from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset, similarity_vector
+from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset
 from tunelab.engine import (
     Budget,
     Clock,
@@ -30,6 +30,7 @@ from tunelab.engine import (
     settled_config,
 )
 from tunelab.errors import InputError, StudyStateError
+from tunelab.facts import similarity_vector
 from tunelab.models import FAMILIES, preload
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
 from tunelab.ops._profile import profile_metafeatures, profiled_space

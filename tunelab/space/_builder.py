@@ -27,9 +27,9 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from tunelab.data import Dataset
-from tunelab.space._transform_probe import TransformProbe
-from tunelab.data._metafeatures import MetaFeatures, scaled_cost, type3_moments
+from tunelab.data import Dataset, type3_moments
+from tunelab.facts import MetaFeatures
+from tunelab.probes import TransformProbe, scaled_cost
 from tunelab.data._shared_scale import SHARED_SCALE_MAX_RATIO, shares_one_scale
 from tunelab.evaluation import DEFAULT_METRIC, fold_count
 from tunelab.models._families import MLP_RUNGS
@@ -746,7 +746,7 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
     dataset
         The loaded data (roles, cardinalities, row count, target).
     meta
-        Its meta-features (:func:`tunelab.data._metafeatures.compute_metafeatures`); the cost
+        Its meta-features (:func:`tunelab.facts.compute_metafeatures`); the cost
         probes decide which families fit the budget, the landmarkers how promising each is.
     budget_seconds
         The study's wall-clock budget; ``None`` weighs costs against a reference of
@@ -756,7 +756,7 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
         under log loss, which scores the probabilities that reweighting biases.
     transform_probe
         Held-out scores of the linear pipeline under each numeric map
-        (:func:`tunelab.space._transform_probe.probe_transforms`); it orders the maps the scaled
+        (:func:`tunelab.probes.probe_transforms`); it orders the maps the scaled
         families search.  ``None`` leaves the order to the skewness rule.
 
     Returns

@@ -20,10 +20,10 @@ from dataclasses import dataclass
 from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
-from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
 from tunelab.evaluation import make_folds, resolve_metric, score
+from tunelab.probes._threads import one_thread
 
 PROBE_ROWS = 1000  # rows of the sample: a few seconds at most for three maps × three folds
 PROBE_FOLDS = 3
@@ -74,9 +74,7 @@ def probe_transforms(dataset: Dataset, metric: str | None, choices: Sequence[str
         return None
     cardinality = {c.name: c.n_unique for c in dataset.columns}
     started = clock()
-    # One BLAS thread: on a busy machine a multi-threaded solver on a thousand rows spins more
-    # than it computes (digits: 10 s against 2.5 s for the whole probe under load).
-    with threadpool_limits(limits=1):
+    with one_thread():  # a thousand rows under load: 10 s with many threads, 2.5 s with one (digits)
         scores = _scores(X, y, folds, choices, roles, cardinality, dataset.task, resolved, seed,
                          lambda: clock() - started > time_cap_s)
     if len(scores) < 2:
