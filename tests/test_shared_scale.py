@@ -17,10 +17,10 @@ from sklearn import datasets as skdata
 from tunelab.data import prepare_frame
 from tunelab.facts import compute_metafeatures
 from tunelab.data._shared_scale import SHARED_SCALE_MIN_COLUMNS, shares_one_scale
-from tunelab.models import build_pipeline
+from tunelab.models import FAMILY_NAMES, build_pipeline
 from tunelab.models._preprocess import PooledScaler
 from tunelab.probes import SCALING_RULES, CostProbe
-from tunelab.space import FAMILY_NAMES, build_space, numeric_map_choices
+from tunelab.space import build_space, numeric_map_choices
 
 
 def _digits() -> pd.DataFrame:

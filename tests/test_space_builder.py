@@ -22,11 +22,11 @@ from sklearn import datasets as skdata
 
 from tunelab.data import Dataset, prepare_frame
 from tunelab.facts import MetaFeatures, compute_metafeatures
-from tunelab.models import build_pipeline
+from tunelab.models import FAMILY_NAMES, build_pipeline
 from tunelab.models._families import MLP_RUNGS, mlp_rung_params
 from tunelab.models._preprocess import build_preprocessor, signed_log1p
 from tunelab.probes import SCALING_RULES, CostProbe, TransformProbe
-from tunelab.space import FAMILY_NAMES, SpaceSpec, build_space
+from tunelab.space import SpaceSpec, build_space
 
 CHEAP = {f: 0.001 for f in FAMILY_NAMES}  # seconds per fit on all rows: every family affordable
 

@@ -16,20 +16,13 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from tunelab.models import FAMILY_NAMES
 from tunelab.probes._scaling import SCALING_RULES, scaled_cost
 
 if TYPE_CHECKING:  # pragma: no cover - imported lazily at run time to keep start-up fast
     from sklearn.base import BaseEstimator
 
-COST_FAMILIES: tuple[str, ...] = (
-    "linear",
-    "knn",
-    "random_forest",
-    "extra_trees",
-    "hist_gb",
-    "svm",
-    "mlp",
-)
+COST_FAMILIES: tuple[str, ...] = FAMILY_NAMES  # every family the registry builds is timed, in its order
 
 _REPEAT_BELOW_S = 0.05  # a probe faster than this is repeated and the fastest run kept
 _PROBE_REPEATS = 3
@@ -102,9 +95,10 @@ def probe_costs(
         has no estimate and says why.
     """
     target = y if classification else np.asarray(y, dtype=float)
+    models = _probe_models(classification, seed)
     probes: dict[str, CostProbe] = {}
-    for family, probe in _probe_models(classification, seed).items():
-        scaling = SCALING_RULES[family]
+    for family in COST_FAMILIES:
+        probe, scaling = models[family], SCALING_RULES[family]
         try:
             seconds = _time_fit(probe.model, M, target, clock) * probe.work_factor
         except Exception as exc:  # a failed probe must not stop the profile

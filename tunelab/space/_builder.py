@@ -32,12 +32,11 @@ from tunelab.facts import MetaFeatures
 from tunelab.probes import TransformProbe, scaled_cost
 from tunelab.data._shared_scale import SHARED_SCALE_MAX_RATIO, shares_one_scale
 from tunelab.evaluation import DEFAULT_METRIC, fold_count
+from tunelab.models import FAMILY_NAMES
 from tunelab.models._families import MLP_RUNGS
 from tunelab.models._row_cap import ROWS_KEY
 from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
 from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec
-
-FAMILY_NAMES: tuple[str, ...] = ("hist_gb", "random_forest", "extra_trees", "linear", "svm", "mlp", "knn")
 
 # With no wall-clock budget (a trial cap, or `profile` without --budget) costs are weighed
 # against ten minutes; common practice, no source.
@@ -767,10 +766,12 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
     """
     facts = _facts(dataset, meta, budget_seconds, metric, transform_probe)
     mlp, mlp_notes = _mlp(facts, meta)
-    decisions = [_on_fewer_rows(_hist_gb, facts, meta),
-                 _on_fewer_rows(lambda f, m: _forest("random_forest", f, m), facts, meta),
-                 _on_fewer_rows(lambda f, m: _forest("extra_trees", f, m), facts, meta),
-                 _linear(facts, meta), _svm(facts, meta), mlp, _knn(facts, meta)]
+    rules = {"hist_gb": lambda: _on_fewer_rows(_hist_gb, facts, meta),
+             "random_forest": lambda: _on_fewer_rows(lambda f, m: _forest("random_forest", f, m), facts, meta),
+             "extra_trees": lambda: _on_fewer_rows(lambda f, m: _forest("extra_trees", f, m), facts, meta),
+             "linear": lambda: _linear(facts, meta), "svm": lambda: _svm(facts, meta), "mlp": lambda: mlp,
+             "knn": lambda: _knn(facts, meta)}
+    decisions = [rules[family]() for family in FAMILY_NAMES]  # the registry's order breaks ranking ties
     kept, family_reason = _select(decisions, facts)
     prep, prep_centre = _prep_params(dataset, meta, facts)
     families = {d.family: FamilySpec(dict(d.params), d.reason) for d in kept}
@@ -793,4 +794,4 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
                      family_reason=family_reason, trial_seconds=statistics.median(costs) if costs else None)
 
 
-__all__ = ["FAMILY_NAMES", "REFERENCE_BUDGET_S", "build_space", "numeric_map_choices", "numeric_shares_one_scale"]
+__all__ = ["REFERENCE_BUDGET_S", "build_space", "numeric_map_choices", "numeric_shares_one_scale"]
