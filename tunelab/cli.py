@@ -334,8 +334,7 @@ def profile(
     from tunelab import _render as r
     from tunelab.engine import parse_duration
     from tunelab.facts import similarity_vector
-    from tunelab.ops import profile_data
-    from tunelab.ops._learn import similar_studies
+    from tunelab.ops import profile_data, similar_studies
 
     seconds = parse_duration(budget) if budget else None
     report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed)

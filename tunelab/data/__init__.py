@@ -11,10 +11,11 @@ from tunelab.data._read import file_sha256, read_table
 from tunelab.data._roles import ROLES, ColumnRole, Role, infer_roles
 from tunelab.data._shared_scale import SHARED_SCALE_MAX_RATIO, SHARED_SCALE_MIN_COLUMNS, shares_one_scale
 from tunelab.data._simple import SimpleFeatures
-from tunelab.data._statistical import StatisticalFeatures, type3_moments
+from tunelab.data._statistical import HIGH_SKEWNESS, StatisticalFeatures, type3_moments
 from tunelab.data._task import TASKS, Task, infer_task
 
 __all__ = [
+    "HIGH_SKEWNESS",
     "ROLES",
     "SHARED_SCALE_MAX_RATIO",
     "SHARED_SCALE_MIN_COLUMNS",

@@ -17,6 +17,8 @@ from tunelab.data._columns import columns_with_role, finite
 
 _OUTLIER_WHISKER = 1.5  # Tukey's fences: outside [Q1 - 1.5 IQR, Q3 + 1.5 IQR]
 
+HIGH_SKEWNESS = 1.0  # |skewness| above 1 is "highly skewed" (Bulmer 1979, Principles of Statistics; from memory)
+
 
 @dataclass(frozen=True)
 class StatisticalFeatures:
@@ -131,4 +133,4 @@ def _outliers(A: np.ndarray) -> tuple[float | None, float | None]:
     )
 
 
-__all__ = ["StatisticalFeatures", "statistical_features", "type3_moments"]
+__all__ = ["HIGH_SKEWNESS", "StatisticalFeatures", "statistical_features", "type3_moments"]

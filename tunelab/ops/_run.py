@@ -33,10 +33,10 @@ from tunelab.errors import InputError, StudyStateError
 from tunelab.facts import similarity_vector
 from tunelab.models import FAMILIES, preload
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
-from tunelab.ops._profile import profile_metafeatures, profiled_space
+from tunelab.ops._profile import profile_facts, profile_metafeatures
 from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
-from tunelab.space import SpaceSpec
+from tunelab.space import SpaceSpec, build_space
 from tunelab.store import Store, StudyRecord, keys
 
 
@@ -111,9 +111,9 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         if request.learn_nearest:  # only then is it worth the seconds of meta-features
             similarity = similarity_vector(profile_metafeatures(dataset, seed=request.seed))
     else:
-        space, meta = profiled_space(dataset, budget_seconds=request.budget.wall_seconds, metric=metric.name,
-                                     seed=request.seed)
-        similarity = similarity_vector(meta)
+        facts = profile_facts(dataset, metric=metric.name, seed=request.seed)
+        space = build_space(facts, budget_seconds=request.budget.wall_seconds)
+        similarity = similarity_vector(facts.meta)
     _check_space_fits(space, dataset)
     pruner_kind = request.pruning
     expected = _expected_trials(space, request.budget, request.jobs)

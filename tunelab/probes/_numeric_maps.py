@@ -3,9 +3,10 @@
 Skewness alone misleads: pixel intensities are zero-inflated and "highly skewed", yet a quantile
 map squeezes their scale away: on scikit-learn's digits it raises the linear model's log loss from
 0.12 to 0.30 and k-nearest neighbours' from 0.21 to 0.37, while on hpc's long tails the log map
-beats both others for the linear model and the SVM.  So the builder asks the data: the linear family's
+beats both others for the linear model and the SVM.  So the data is asked: the linear family's
 own pipeline, fitted with each map on a capped row sample and scored on held-out folds with the
-study's metric, orders the maps, and that order becomes the prior (first map = warm start).
+study's metric, orders the maps, and the space builder makes that order the prior (first map =
+warm start).  Which maps are tried at all follows the skewness rule (:func:`numeric_map_choices`).
 The linear model stands in for every scaled family because it is the cheapest one.  Checked side
 by side (``benchmarks/numeric_maps.py``, six benchmark datasets): its pick was within 1 % of the RBF
 SVM's best map on all six, but not of k-nearest neighbours' on three (digits, hpc, ames).
@@ -21,13 +22,25 @@ from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
-from tunelab.data import Dataset
+from tunelab.data import HIGH_SKEWNESS, Dataset
 from tunelab.evaluation import make_folds, resolve_metric, score
 from tunelab.probes._threads import one_thread
 
 PROBE_ROWS = 1000  # rows of the sample: a few seconds at most for three maps × three folds
 PROBE_FOLDS = 3
 PROBE_CAP_S = 4.0  # the whole probe stops here; maps not reached are left unranked
+
+
+def numeric_map_choices(mean_abs_skewness: float | None, shared_scale: bool = False) -> tuple[str, ...]:
+    """The numeric maps scaled models search, in the order the rules prefer them.
+
+    Columns of one shared scale put the pooled map (one divisor for all) first; skewed columns
+    add the log map.
+    """
+    pooled = ("pooled",) if shared_scale else ()
+    if mean_abs_skewness is not None and mean_abs_skewness > HIGH_SKEWNESS:
+        return (*pooled, "log", "standard", "quantile")
+    return (*pooled, "standard", "quantile")
 
 
 @dataclass(frozen=True)
@@ -109,4 +122,4 @@ def _scores(X: Any, y: np.ndarray, folds: Sequence[tuple[np.ndarray, np.ndarray]
     return scores
 
 
-__all__ = ["PROBE_CAP_S", "PROBE_FOLDS", "PROBE_ROWS", "TransformProbe", "probe_transforms"]
+__all__ = ["PROBE_CAP_S", "PROBE_FOLDS", "PROBE_ROWS", "TransformProbe", "numeric_map_choices", "probe_transforms"]

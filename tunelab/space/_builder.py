@@ -1,6 +1,7 @@
-"""The data-driven search space: meta-features in, families, ranges, priors and reasons out.
+"""The data-driven search space: the data's facts in, families, ranges, priors and reasons out.
 
-Every decision the builder takes is a small rule over the meta-features and the budget, and
+Every decision the builder takes is a small rule over the data's facts (:class:`tunelab.facts.DataFacts`:
+meta-features, probe results, folds, metric) and the budget, and
 every rule leaves a one-line reason in the spec, so ``tunelab profile`` can show why the space
 looks the way it does.  The rules are rules of thumb unless a comment names a source.
 
@@ -25,17 +26,10 @@ import statistics
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
-import numpy as np
-
-from tunelab.data import Dataset, type3_moments
-from tunelab.facts import MetaFeatures
-from tunelab.probes import TransformProbe, scaled_cost
-from tunelab.data._shared_scale import SHARED_SCALE_MAX_RATIO, shares_one_scale
-from tunelab.evaluation import DEFAULT_METRIC, fold_count
-from tunelab.models import FAMILY_NAMES
-from tunelab.models._families import MLP_RUNGS
-from tunelab.models._row_cap import ROWS_KEY
-from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
+from tunelab.data import HIGH_SKEWNESS, SHARED_SCALE_MAX_RATIO, ColumnRole
+from tunelab.facts import DataFacts
+from tunelab.models import FAMILY_NAMES, MLP_RUNGS, ONE_HOT_MAX_CARDINALITY, ROWS_KEY
+from tunelab.probes import CostProbe, TransformProbe, scaled_cost
 from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec
 
 # With no wall-clock budget (a trial cap, or `profile` without --budget) costs are weighed
@@ -80,7 +74,6 @@ _WARM_SHARE = 0.5  # warm starts may plan up to half the budget; the rest is for
 _TRIALS_PER_FAMILY = 3  # trials at its centre each kept family must have room for
 _MIN_SAMPLE_ROWS = 2_000  # fewer training rows than this are too few to judge a family by; no source
 _SAMPLE_ROOM = 3.0  # a row sample leaves room for about 60 rounds or trees, not just the minimum 20
-_SKEW_HIGH = 1.0  # |skewness| above 1 is "highly skewed" (Bulmer 1979, Principles of Statistics; from memory)
 _IMBALANCE_HIGH = 3.0  # largest class over smallest; common practice, no source
 _NOISY_SIGNAL = 0.6  # best landmarker gain over guessing below this: a noisy target; no source
 _LANDMARK_CLOSE = 0.02  # landmarker gains within this of the best count as "as good"; no source
@@ -111,8 +104,8 @@ _MLP_EXPECTED_EPOCHS = 40  # early stopping (patience 10) usually ends about her
 
 
 @dataclass(frozen=True)
-class _Facts:
-    """The figures every rule reads, computed once from the dataset and its meta-features."""
+class _RuleFacts:
+    """The figures every rule reads: the data's facts in the form the rules use them, and the budget."""
 
     task: str
     n_rows: int
@@ -129,9 +122,13 @@ class _Facts:
     n_numeric: int
     landmarks: Mapping[str, float]
     metric: str
-    transform_probe: TransformProbe | None = None
-    target_skew: float | None = None  # regression only, and only for a strictly positive target
-    shared_scale: bool = False  # numeric columns measured in one unit (tunelab.data._shared_scale)
+    cost: Mapping[str, CostProbe]  # each family's cost probe
+    columns: tuple[ColumnRole, ...]
+    text_tokens: Mapping[str, float]  # mean words per value of each text column
+    numeric_maps: tuple[str, ...]  # the maps scaled models may search, in the skewness rule's order
+    transform_probe: TransformProbe | None
+    target_skew: float | None  # regression only, and only for a strictly positive target
+    shared_scale: bool  # numeric columns measured in one unit (tunelab.data.shares_one_scale)
 
     @property
     def signal(self) -> float | None:
@@ -156,11 +153,8 @@ class _Decision:
     second: dict[str, Any] | None = None  # a second warm start, hedging the first one's regime
 
 
-def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None,
-           transform_probe: TransformProbe | None = None) -> _Facts:
-    n_rows = dataset.n_rows
-    n_folds = fold_count(n_rows, dataset.task, dataset.y)
-    cols = [c for c in dataset.columns if c.role != "id"]
+def _rule_facts(data: DataFacts, budget_seconds: float | None) -> _RuleFacts:
+    meta, cols = data.meta, [c for c in data.columns if c.role != "id"]
     missing_numeric = sum(1 for c in cols if c.role == "numeric" and c.missing_share > 0)
     base = sum(1 for c in cols if c.role == "numeric") + missing_numeric + 5 * sum(
         1 for c in cols if c.role == "datetime")
@@ -172,45 +166,27 @@ def _facts(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, m
     lm = meta.landmarkers
     # Accuracy over the majority-class rate, rescaled so 0 is guessing and 1 is perfect: on 97 %
     # majority data every raw accuracy is near 0.97 and would look "as good as the best".
-    floor = 0.0
-    if dataset.task != "regression" and len(dataset.y):
-        _, counts = np.unique(dataset.y, return_counts=True)
-        floor = float(counts.max() / counts.sum())
+    floor = data.majority_share
     landmarks = {k: (v - floor) / (1 - floor) if floor < 1 else 0.0
                  for k, v in (("one_nn", lm.one_nn), ("decision_stump", lm.decision_stump),
                               ("naive_bayes", lm.naive_bayes), ("linear", lm.linear)) if v is not None}
-    return _Facts(
-        task=dataset.task, n_rows=n_rows, n_fit=max(2, int(n_rows * (n_folds - 1) / n_folds)), n_folds=n_folds,
+    n_rows, n_folds = data.n_rows, data.n_folds
+    return _RuleFacts(
+        task=data.task, n_rows=n_rows, n_fit=max(2, int(n_rows * (n_folds - 1) / n_folds)), n_folds=n_folds,
         n_classes=meta.simple.n_classes, width_tree=max(1, width_tree), width_dense=max(1, width_dense),
         rows_per_column=meta.simple.rows_per_column,
         budget=float(budget_seconds) if budget_seconds else REFERENCE_BUDGET_S,
         budget_given=bool(budget_seconds), skew=meta.statistical.mean_abs_skewness,
         imbalance=meta.information.imbalance_ratio, n_numeric=meta.simple.n_numeric,
-        landmarks=landmarks, metric=metric or DEFAULT_METRIC[dataset.task], transform_probe=transform_probe,
-        target_skew=_positive_target_skew(dataset), shared_scale=numeric_shares_one_scale(dataset),
+        landmarks=landmarks, metric=data.metric, cost=meta.cost, columns=data.columns,
+        text_tokens=meta.simple.mean_text_tokens, numeric_maps=data.numeric_maps,
+        transform_probe=data.transform_probe, target_skew=data.target_skew, shared_scale=data.shared_scale,
     )
 
 
-def numeric_shares_one_scale(dataset: Dataset) -> bool:
-    """Whether the dataset's numeric columns look like one unit (see :mod:`tunelab.data._shared_scale`)."""
-    numeric = [c.name for c in dataset.columns if c.role == "numeric"]
-    return shares_one_scale(dataset.X[numeric]) if numeric else False
-
-
-def _positive_target_skew(dataset: Dataset) -> float | None:
-    """The target's skewness when it is a regression target above zero everywhere, else ``None``."""
-    if dataset.task != "regression" or not len(dataset.y):
-        return None
-    y = np.asarray(dataset.y, dtype=float)
-    if not np.all(np.isfinite(y)) or y.min() <= 0:
-        return None
-    skew, _ = type3_moments(y)
-    return skew
-
-
-def _trial_seconds(family: str, facts: _Facts, meta: MetaFeatures, work: float = 1.0) -> float | None:
+def _trial_seconds(family: str, facts: _RuleFacts, work: float = 1.0) -> float | None:
     """Estimated seconds of one trial: a fit per fold, ``work`` times the probe's amount of work."""
-    probe = meta.cost.get(family)
+    probe = facts.cost.get(family)
     if probe is None or probe.estimated_seconds is None:
         return None
     fit = scaled_cost(probe.estimated_seconds, max(facts.n_rows, probe.probe_rows), facts.n_fit, probe.scaling)
@@ -223,9 +199,9 @@ def _mlp_row_cost(width_in: int, hidden: int, layers: int, batch: int, n_out: in
     return _MLP_BATCH_S / batch + _MLP_WEIGHT_S * weights + _MLP_UNIT_S * hidden * layers
 
 
-def _mlp_trial_seconds(rung: str, batch: int, epochs: int, facts: _Facts, meta: MetaFeatures) -> float | None:
+def _mlp_trial_seconds(rung: str, batch: int, epochs: int, facts: _RuleFacts) -> float | None:
     """The MLP probe (scikit-learn, 100 units, 50 epochs) scaled to the rung's network and epochs."""
-    base = _trial_seconds("mlp", facts, meta)
+    base = _trial_seconds("mlp", facts)
     if base is None:
         return None
     (w_lo, w_hi), (l_lo, l_hi), _ = MLP_RUNGS[rung]
@@ -236,7 +212,7 @@ def _mlp_trial_seconds(rung: str, batch: int, epochs: int, facts: _Facts, meta: 
     return base * max(1.0, size) * min(epochs, _MLP_EXPECTED_EPOCHS) / 50
 
 
-def _share(seconds: float | None, facts: _Facts) -> str:
+def _share(seconds: float | None, facts: _RuleFacts) -> str:
     if seconds is None:
         return "cost unknown (probe failed)"
     share = 100 * seconds / facts.budget
@@ -248,16 +224,16 @@ def _secs(seconds: float) -> str:
     return f"{seconds:.1f} s" if seconds < 10 else f"{seconds:.0f} s"
 
 
-def _budget_words(facts: _Facts) -> str:
+def _budget_words(facts: _RuleFacts) -> str:
     words = f"{facts.budget:g} s budget"
     return words if facts.budget_given else words + " (reference; no budget given)"
 
 
-def _landmark(facts: _Facts, name: str) -> float | None:
+def _landmark(facts: _RuleFacts, name: str) -> float | None:
     return facts.landmarks.get(name)
 
 
-def _best_landmark(facts: _Facts) -> float | None:
+def _best_landmark(facts: _RuleFacts) -> float | None:
     return max(facts.landmarks.values()) if facts.landmarks else None
 
 
@@ -301,19 +277,7 @@ def _put(d: _Decision, name: str, spec: ParamSpec, preferred: Any = None) -> Non
 # --------------------------------------------------------------------------------------
 
 
-def numeric_map_choices(mean_abs_skewness: float | None, shared_scale: bool = False) -> tuple[str, ...]:
-    """The numeric maps scaled models search, in the order the rules prefer them.
-
-    Columns of one shared scale put the pooled map (one divisor for all) first; skewed columns
-    add the log map.
-    """
-    pooled = ("pooled",) if shared_scale else ()
-    if mean_abs_skewness is not None and mean_abs_skewness > _SKEW_HIGH:
-        return (*pooled, "log", "standard", "quantile")
-    return (*pooled, "standard", "quantile")
-
-
-def _numeric_transform(d: _Decision, facts: _Facts) -> None:
+def _numeric_transform(d: _Decision, facts: _RuleFacts) -> None:
     """Numeric maps for scaled models: which ones by skewness, in which order by the probe.
 
     Skewed columns add the log map to the choices; the transform probe (the linear pipeline
@@ -322,9 +286,9 @@ def _numeric_transform(d: _Decision, facts: _Facts) -> None:
     """
     if facts.n_numeric == 0 or facts.skew is None:
         return
-    rule = numeric_map_choices(facts.skew, facts.shared_scale)
+    rule = facts.numeric_maps
     if "log" in rule:
-        why = f"numeric columns skewed (mean |skewness| {facts.skew:.1f} > {_SKEW_HIGH:g}): log, plain, quantile maps"
+        why = f"numeric columns skewed (mean |skewness| {facts.skew:.1f} > {HIGH_SKEWNESS:g}): log, plain, quantile maps"
     else:
         why = f"numeric columns near symmetric (mean |skewness| {facts.skew:.1f}): plain scaling and quantile map"
     if facts.shared_scale:
@@ -332,7 +296,7 @@ def _numeric_transform(d: _Decision, facts: _Facts) -> None:
     probe = facts.transform_probe
     if facts.shared_scale:
         # The linear probe barely separates pooled from per-column scaling on such tables, while
-        # the models that lean on distances and many units do (see tunelab.data._shared_scale).
+        # the models that lean on distances and many units do (see tunelab.data.shares_one_scale).
         order = rule
         why += "; pooled first"
     elif probe is not None and len(set(rule) & set(probe.scores)) >= 2:
@@ -344,7 +308,7 @@ def _numeric_transform(d: _Decision, facts: _Facts) -> None:
     _put(d, "num_transform", _cat(order, why))
 
 
-def _class_weight(d: _Decision, facts: _Facts) -> None:
+def _class_weight(d: _Decision, facts: _RuleFacts) -> None:
     # Log loss scores the probabilities themselves, which reweighting the classes biases.
     if facts.imbalance is not None and facts.imbalance >= _IMBALANCE_HIGH and facts.metric != "log_loss":
         _put(d, "class_weight", _cat((None, "balanced"),
@@ -352,12 +316,12 @@ def _class_weight(d: _Decision, facts: _Facts) -> None:
                                      "balanced weights searched"))
 
 
-def _work_cap(family: str, facts: _Facts, meta: MetaFeatures, per_unit: float, ceiling: int) -> int | None:
+def _work_cap(family: str, facts: _RuleFacts, per_unit: float, ceiling: int) -> int | None:
     """The largest work knob (trees, rounds) whose trial stays within the trial share of the budget.
 
     ``per_unit`` is the knob's value that the probe's work corresponds to (100 trees, 100 rounds).
     """
-    unit = _trial_seconds(family, facts, meta, 1.0)
+    unit = _trial_seconds(family, facts, 1.0)
     if unit is None:
         return None
     overhead = facts.n_folds * _FIT_OVERHEAD_S
@@ -371,8 +335,8 @@ def _work_cap(family: str, facts: _Facts, meta: MetaFeatures, per_unit: float, c
 # --------------------------------------------------------------------------------------
 
 
-def _linear(facts: _Facts, meta: MetaFeatures) -> _Decision:
-    trial = _trial_seconds("linear", facts, meta)
+def _linear(facts: _RuleFacts) -> _Decision:
+    trial = _trial_seconds("linear", facts)
     d = _Decision("linear", True, "fast baseline, strong with many sparse or one-hot features; " + _share(trial, facts),
                   trial)
     r = facts.rows_per_column
@@ -392,14 +356,14 @@ def _linear(facts: _Facts, meta: MetaFeatures) -> _Decision:
     return d
 
 
-def _hist_gb(facts: _Facts, meta: MetaFeatures) -> _Decision:
-    cap = _work_cap("hist_gb", facts, meta, 100, 500)
+def _hist_gb(facts: _RuleFacts) -> _Decision:
+    cap = _work_cap("hist_gb", facts, 100, 500)
     if cap is not None and cap < 20:
         return _Decision("hist_gb", False, f"even 20 boosting rounds would pass {_TRIAL_SHARE_MAX:.0%} of the "
-                         f"{_budget_words(facts)}", _trial_seconds("hist_gb", facts, meta, 0.2))
+                         f"{_budget_words(facts)}", _trial_seconds("hist_gb", facts, 0.2))
     hi = 500 if cap is None else cap
     lo = min(50, hi)
-    trial = _trial_seconds("hist_gb", facts, meta, math.sqrt(lo * hi) / 100)
+    trial = _trial_seconds("hist_gb", facts, math.sqrt(lo * hi) / 100)
     d = _Decision("hist_gb", True, "strong default for tabular data; " + _share(trial, facts), trial)
     budget_note = "" if hi == 500 else f", capped at {hi} so a trial stays within {_TRIAL_SHARE_MAX:.0%} of the budget"
     _put(d, "max_iter", _int(lo, hi, f"boosting rounds{budget_note}", log=True))
@@ -433,27 +397,27 @@ def _hist_gb(facts: _Facts, meta: MetaFeatures) -> _Decision:
     return d
 
 
-def _boosting_loss(d: _Decision, facts: _Facts) -> None:
+def _boosting_loss(d: _Decision, facts: _RuleFacts) -> None:
     # A positive target with a long right tail (prices, wages, amounts) varies on a multiplicative
     # scale: the gamma deviance with its log link fits that scale, and predicts the mean, which is
     # what RMSE scores (McCullagh and Nelder 1989, Generalized Linear Models, 2nd ed., ch. 8: gamma
     # models for positive data whose spread grows with the mean; from memory).  Squared error stays
     # a choice, so cross-validation decides; gamma goes first, into the warm starts.
-    if facts.target_skew is not None and facts.target_skew > _SKEW_HIGH:
+    if facts.target_skew is not None and facts.target_skew > HIGH_SKEWNESS:
         _put(d, "loss", _cat(("gamma", "squared_error"),
-                             f"target above zero and right-skewed (skewness {facts.target_skew:.1f} > {_SKEW_HIGH:g}): "
+                             f"target above zero and right-skewed (skewness {facts.target_skew:.1f} > {HIGH_SKEWNESS:g}): "
                              "gamma deviance (log link) first, squared error as the other choice"))
 
 
-def _on_fewer_rows(decide: Any, facts: _Facts, meta: MetaFeatures) -> _Decision:
+def _on_fewer_rows(decide: Any, facts: _RuleFacts) -> _Decision:
     """The family on every row when a trial fits the budget; else on a row sample, when that is the only way.
 
-    ``decide(facts, meta)`` is a family's rule (boosting, forests); it leaves a family out when
+    ``decide(facts)`` is a family's rule (boosting, forests); it leaves a family out when
     even its smallest model (20 rounds or trees) would pass the trial share of the budget.  The
     row sample is sized so that about three times that model fits (fits grow about linearly
     with rows for these families), and the family's ranges are then planned for the sample.
     """
-    whole = decide(facts, meta)
+    whole = decide(facts)
     if whole.include or not whole.trial_s:
         return whole
     allowed = _TRIAL_SHARE_MAX * facts.budget - facts.n_folds * _FIT_OVERHEAD_S
@@ -461,7 +425,7 @@ def _on_fewer_rows(decide: Any, facts: _Facts, meta: MetaFeatures) -> _Decision:
     if rows < _MIN_SAMPLE_ROWS or rows >= facts.n_fit:
         return whole
     sample = replace(facts, n_fit=rows)  # n_rows stays: the cost probes extrapolate from it
-    part = decide(sample, meta)
+    part = decide(sample)
     if not part.include:
         return whole
     part.reason += f"; trained on {rows} of the {facts.n_fit} training rows of each fold"
@@ -472,14 +436,14 @@ def _on_fewer_rows(decide: Any, facts: _Facts, meta: MetaFeatures) -> _Decision:
     return part
 
 
-def _forest(family: str, facts: _Facts, meta: MetaFeatures) -> _Decision:
-    cap = _work_cap(family, facts, meta, 100, 500)
+def _forest(family: str, facts: _RuleFacts) -> _Decision:
+    cap = _work_cap(family, facts, 100, 500)
     if cap is not None and cap < 20:
         return _Decision(family, False, f"even 20 trees would pass {_TRIAL_SHARE_MAX:.0%} of the "
-                         f"{_budget_words(facts)}", _trial_seconds(family, facts, meta, 0.2))
+                         f"{_budget_words(facts)}", _trial_seconds(family, facts, 0.2))
     hi = 500 if cap is None else cap
     lo = min(50, hi)
-    trial = _trial_seconds(family, facts, meta, math.sqrt(lo * hi) / 100)
+    trial = _trial_seconds(family, facts, math.sqrt(lo * hi) / 100)
     why = ("robust, little tuning needed" if family == "random_forest"
            else "random split points: lower variance than random forest on noisy data")
     d = _Decision(family, True, f"{why}; " + _share(trial, facts), trial)
@@ -503,8 +467,8 @@ def _forest(family: str, facts: _Facts, meta: MetaFeatures) -> _Decision:
     return d
 
 
-def _knn(facts: _Facts, meta: MetaFeatures) -> _Decision:
-    trial = _trial_seconds("knn", facts, meta)
+def _knn(facts: _RuleFacts) -> _Decision:
+    trial = _trial_seconds("knn", facts)
     one_nn, best = _landmark(facts, "one_nn"), _best_landmark(facts)
     informative = one_nn is not None and best is not None and one_nn >= best - _LANDMARK_CLOSE
     if facts.width_dense > _KNN_MAX_WIDTH and not informative:
@@ -523,8 +487,8 @@ def _knn(facts: _Facts, meta: MetaFeatures) -> _Decision:
     return d
 
 
-def _svm(facts: _Facts, meta: MetaFeatures) -> _Decision:
-    trial = _trial_seconds("svm", facts, meta)
+def _svm(facts: _RuleFacts) -> _Decision:
+    trial = _trial_seconds("svm", facts)
     if facts.n_rows > _SVM_MAX_ROWS:
         return _Decision("svm", False, f"{facts.n_rows} rows: the kernel matrix grows with rows squared "
                          f"(limit {_SVM_MAX_ROWS})", trial)
@@ -540,14 +504,14 @@ def _svm(facts: _Facts, meta: MetaFeatures) -> _Decision:
     return d
 
 
-def _mlp(facts: _Facts, meta: MetaFeatures) -> tuple[_Decision, list[str]]:
+def _mlp(facts: _RuleFacts) -> tuple[_Decision, list[str]]:
     batch = (64, 32, 128) if facts.n_fit < 2000 else (128, 256, 64) if facts.n_fit < 20_000 else (256, 512, 1024)
     epochs_hi = 200 if facts.n_fit < 20_000 else 100
     rungs: list[str] = []
     notes: list[str] = []
     trials: dict[str, float | None] = {}
     for rung in MLP_RUNGS:
-        trial = _mlp_trial_seconds(rung, batch[0], epochs_hi, facts, meta)
+        trial = _mlp_trial_seconds(rung, batch[0], epochs_hi, facts)
         trials[rung] = trial
         rows_ok = facts.n_fit >= _MLP_MIN_ROWS[rung]
         share = _MLP_SHARE_SHARED_SCALE if facts.shared_scale and rung == "narrow" else _MLP_SHARE[rung]
@@ -589,10 +553,10 @@ def _mlp(facts: _Facts, meta: MetaFeatures) -> tuple[_Decision, list[str]]:
 # --------------------------------------------------------------------------------------
 
 
-def _evidence(family: str, facts: _Facts) -> tuple[float, str]:
+def _evidence(family: str, facts: _RuleFacts) -> tuple[float, str]:
     """Points from the landmarkers, and the words for them.
 
-    Landmarker scores are read as gains over guessing (see ``_facts``), so a gap means the same
+    Landmarker scores are read as gains over guessing (see ``_rule_facts``), so a gap means the same
     on balanced and on heavily imbalanced classes.  Two rules, no source:
 
     * a family whose landmarker trails the best landmarker loses ``_GAP_WEIGHT`` points per unit
@@ -637,7 +601,7 @@ def _evidence(family: str, facts: _Facts) -> tuple[float, str]:
     return points, "; ".join(words)
 
 
-def _select(decisions: list[_Decision], facts: _Facts) -> tuple[list[_Decision], str]:
+def _select(decisions: list[_Decision], facts: _RuleFacts) -> tuple[list[_Decision], str]:
     """Keep the best-scoring candidates while a few trials of each still fit the budget (at least two).
 
     Linear and boosting are exempt: linear is the cheap fallback, boosting the strongest family.
@@ -672,10 +636,10 @@ def _select(decisions: list[_Decision], facts: _Facts) -> tuple[list[_Decision],
     return kept, why
 
 
-def _prep_params(dataset: Dataset, meta: MetaFeatures, facts: _Facts) -> tuple[dict[str, ParamSpec], dict[str, Any]]:
+def _prep_params(facts: _RuleFacts) -> tuple[dict[str, ParamSpec], dict[str, Any]]:
     params: dict[str, ParamSpec] = {}
     centre: dict[str, Any] = {}
-    tokens = meta.simple.mean_text_tokens
+    tokens = facts.text_tokens
     if tokens:
         words = ", ".join(f"{name} {t:.1f}" for name, t in tokens.items())
         hi = int(_clamp(2 * facts.n_rows, 1000, 20000))
@@ -688,27 +652,27 @@ def _prep_params(dataset: Dataset, meta: MetaFeatures, facts: _Facts) -> tuple[d
     return params, centre
 
 
-def _preprocessing_notes(dataset: Dataset, facts: _Facts) -> list[str]:
+def _preprocessing_notes(facts: _RuleFacts) -> list[str]:
     notes: list[str] = []
-    cats = [c for c in dataset.columns if c.role == "categorical"]
+    cats = [c for c in facts.columns if c.role == "categorical"]
     if cats:
         few = sum(1 for c in cats if c.n_unique <= ONE_HOT_MAX_CARDINALITY)
         notes.append(f"categorical columns: {few} one-hot (≤ {ONE_HOT_MAX_CARDINALITY} levels), "
                      f"{len(cats) - few} target-encoded (more levels), ordinal codes for trees")
-    dates = [c.name for c in dataset.columns if c.role == "datetime"]
+    dates = [c.name for c in facts.columns if c.role == "datetime"]
     if dates:
         notes.append(f"datetime columns split into year, month, weekday, hour and day count: {', '.join(dates)}")
-    texts = [c.name for c in dataset.columns if c.role == "text"]
+    texts = [c.name for c in facts.columns if c.role == "text"]
     if texts:
         notes.append(f"text columns as TF-IDF (sparse for linear and SVM, SVD components otherwise): {', '.join(texts)}")
-    missing = [c for c in dataset.columns if c.role == "numeric" and c.missing_share > 0]
+    missing = [c for c in facts.columns if c.role == "numeric" and c.missing_share > 0]
     if missing:
         notes.append(f"{len(missing)} numeric columns with missing values: median fill plus a missing indicator")
     if facts.shared_scale:
         notes.append("numeric columns share one scale (many columns, ranges within a factor of "
                      f"{SHARED_SCALE_MAX_RATIO:g}): scaled models may keep one divisor for all (pooled map), "
                      f"and the MLP may take {_MLP_SHARE_SHARED_SCALE:.0%} of the budget a trial")
-    if facts.skew is not None and facts.skew > _SKEW_HIGH:
+    if facts.skew is not None and facts.skew > HIGH_SKEWNESS:
         notes.append(f"numeric columns skewed (mean |skewness| {facts.skew:.1f}): scaled models search "
                      "log and quantile maps beside plain scaling")
     if facts.shared_scale:
@@ -721,7 +685,7 @@ def _preprocessing_notes(dataset: Dataset, facts: _Facts) -> list[str]:
     return notes
 
 
-def _regime_notes(facts: _Facts) -> list[str]:
+def _regime_notes(facts: _RuleFacts) -> list[str]:
     notes = []
     if facts.signal is not None:
         gain = "R²" if facts.task == "regression" else "gain over guessing"
@@ -736,27 +700,20 @@ def _regime_notes(facts: _Facts) -> list[str]:
     return notes
 
 
-def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float | None,
-                metric: str | None = None, transform_probe: TransformProbe | None = None) -> SpaceSpec:
-    """Build a search space for one dataset from its meta-features and the budget.
+def build_space(data: DataFacts, *, budget_seconds: float | None) -> SpaceSpec:
+    """Build a search space for one dataset from its facts and the budget.
 
     Parameters
     ----------
-    dataset
-        The loaded data (roles, cardinalities, row count, target).
-    meta
-        Its meta-features (:func:`tunelab.facts.compute_metafeatures`); the cost
-        probes decide which families fit the budget, the landmarkers how promising each is.
+    data
+        The dataset's facts (:func:`tunelab.facts.data_facts`): the cost probes decide which
+        families fit the budget, the landmarkers how promising each is; class weights are not
+        searched under a log-loss metric, which scores the probabilities that reweighting
+        biases; the numeric-map probe, when there is one, orders the maps the scaled families
+        search (else the skewness rule orders them).
     budget_seconds
         The study's wall-clock budget; ``None`` weighs costs against a reference of
         ``REFERENCE_BUDGET_S`` seconds.
-    metric
-        The study's metric; ``None`` means the task's default.  Class weights are not searched
-        under log loss, which scores the probabilities that reweighting biases.
-    transform_probe
-        Held-out scores of the linear pipeline under each numeric map
-        (:func:`tunelab.probes.probe_transforms`); it orders the maps the scaled
-        families search.  ``None`` leaves the order to the skewness rule.
 
     Returns
     -------
@@ -764,16 +721,16 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
         Families that fit, ranges scaled to the data, warm starts at the prior centres of the
         most promising families first, and a one-line reason for every decision.
     """
-    facts = _facts(dataset, meta, budget_seconds, metric, transform_probe)
-    mlp, mlp_notes = _mlp(facts, meta)
-    rules = {"hist_gb": lambda: _on_fewer_rows(_hist_gb, facts, meta),
-             "random_forest": lambda: _on_fewer_rows(lambda f, m: _forest("random_forest", f, m), facts, meta),
-             "extra_trees": lambda: _on_fewer_rows(lambda f, m: _forest("extra_trees", f, m), facts, meta),
-             "linear": lambda: _linear(facts, meta), "svm": lambda: _svm(facts, meta), "mlp": lambda: mlp,
-             "knn": lambda: _knn(facts, meta)}
+    facts = _rule_facts(data, budget_seconds)
+    mlp, mlp_notes = _mlp(facts)
+    rules = {"hist_gb": lambda: _on_fewer_rows(_hist_gb, facts),
+             "random_forest": lambda: _on_fewer_rows(lambda f: _forest("random_forest", f), facts),
+             "extra_trees": lambda: _on_fewer_rows(lambda f: _forest("extra_trees", f), facts),
+             "linear": lambda: _linear(facts), "svm": lambda: _svm(facts), "mlp": lambda: mlp,
+             "knn": lambda: _knn(facts)}
     decisions = [rules[family]() for family in FAMILY_NAMES]  # the registry's order breaks ranking ties
     kept, family_reason = _select(decisions, facts)
-    prep, prep_centre = _prep_params(dataset, meta, facts)
+    prep, prep_centre = _prep_params(facts)
     families = {d.family: FamilySpec(dict(d.params), d.reason) for d in kept}
     warm = [{"family": d.family, **prep_centre, **{f"{d.family}.{k}": v for k, v in d.centre.items()}}
             for d in kept]
@@ -784,9 +741,9 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
             planned += d.trial_s or 0.0
     left_out = [f"{d.family} left out: {d.reason}" for d in decisions if not d.include]
     kept_mlp = any(d.family == "mlp" for d in kept)
-    notes = [f"{len(dataset.columns)} columns, {facts.n_rows} rows, {dataset.task}; {facts.n_folds}-fold "
+    notes = [f"{len(facts.columns)} columns, {facts.n_rows} rows, {facts.task}; {facts.n_folds}-fold "
              "cross-validation per trial",
-             *left_out, *(mlp_notes if kept_mlp else []), *_preprocessing_notes(dataset, facts),
+             *left_out, *(mlp_notes if kept_mlp else []), *_preprocessing_notes(facts),
              *_regime_notes(facts),
              "warm starts (prior centres, tried first): " + ", ".join(w["family"] for w in warm)]
     costs = sorted(d.trial_s for d in kept if d.trial_s)
@@ -794,4 +751,4 @@ def build_space(dataset: Dataset, meta: MetaFeatures, *, budget_seconds: float |
                      family_reason=family_reason, trial_seconds=statistics.median(costs) if costs else None)
 
 
-__all__ = ["REFERENCE_BUDGET_S", "build_space", "numeric_map_choices", "numeric_shares_one_scale"]
+__all__ = ["REFERENCE_BUDGET_S", "build_space"]
