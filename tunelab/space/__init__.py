@@ -1,8 +1,9 @@
 """Search spaces: families, ranges, priors, and the serialisable spec stored with a study."""
 
-from tunelab.space._builder import REFERENCE_BUDGET_S, build_space
+from tunelab.space._builder import build_space
 from tunelab.space._carry import carry_config, carry_configs
 from tunelab.space._default import default_families, default_space
+from tunelab.space._rules_of_thumb import REFERENCE_BUDGET_S
 from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec, fixed
 
 __all__ = ["FamilySpec", "ParamSpec", "REFERENCE_BUDGET_S", "SpaceSpec", "build_space", "carry_config",
