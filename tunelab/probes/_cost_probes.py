@@ -131,7 +131,7 @@ def _probe_models(classification: bool, seed: int) -> dict[str, _Probe]:
     Estimates are for library defaults with the work per fit fixed: 100 trees, 100 boosting
     iterations without early stopping, 50 epochs of scikit-learn's MLP (one hidden layer of
     100 units).  That MLP stands in for tunelab's torch MLP, whose own cost the space builder
-    derives from it with a measured correction (``tunelab.space``'s cost model).  To stay
+    derives from it with a measured correction (``tunelab.space._cost_model``).  To stay
     fast, ensembles and the MLP are timed with a fifth of that work (20 trees, 20
     iterations, 10 epochs) and multiplied by 5: cost grows linearly with the number of trees,
     iterations or epochs (common practice, no source; it slightly over-counts fixed set-up
