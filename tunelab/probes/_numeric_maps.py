@@ -24,6 +24,7 @@ import numpy as np
 
 from tunelab.data import HIGH_SKEWNESS, Dataset
 from tunelab.evaluation import make_folds, resolve_metric, score
+from tunelab.models import build_pipeline
 from tunelab.probes._threads import one_thread
 
 PROBE_ROWS = 1000  # rows of the sample: a few seconds at most for three maps × three folds
@@ -99,8 +100,6 @@ def probe_transforms(dataset: Dataset, metric: str | None, choices: Sequence[str
 def _scores(X: Any, y: np.ndarray, folds: Sequence[tuple[np.ndarray, np.ndarray]], choices: Sequence[str],
             roles: Mapping[str, str], cardinality: Mapping[str, int], task: str, metric: Any, seed: int,
             out_of_time: Callable[[], bool]) -> dict[str, float]:
-    from tunelab.models import build_pipeline
-
     scores: dict[str, float] = {}
     for choice in choices:
         fold_scores: list[float] = []
