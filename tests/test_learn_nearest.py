@@ -12,7 +12,7 @@ import pandas as pd
 import pytest
 
 from conftest import small_frame
-from tunelab.data._similarity import meta_distance, similarity_vector
+from tunelab.facts import meta_distance, similarity_vector
 
 
 def _vector(frame: pd.DataFrame, target: str, path: Path) -> dict[str, float]:

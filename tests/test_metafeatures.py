@@ -1,4 +1,4 @@
-"""Specification of the dataset meta-features (tunelab.data._metafeatures).
+"""Specification of the dataset meta-features (tunelab.facts.compute_metafeatures).
 
 Definitions: Rivolli, Garcia, Soares, Vanschoren and de Carvalho (2022), "Meta-features for
 meta-learning", Knowledge-Based Systems.  Reference implementation: pymfe (PyPI,
@@ -20,13 +20,8 @@ import pandas as pd
 import pytest
 from sklearn import datasets
 
-from tunelab.data._metafeatures import (
-    COST_FAMILIES,
-    LANDMARKERS,
-    MetaFeatures,
-    compute_metafeatures,
-    scaled_cost,
-)
+from tunelab.facts import MetaFeatures, compute_metafeatures
+from tunelab.probes import COST_FAMILIES, LANDMARKERS, scaled_cost
 from tunelab.errors import InputError
 
 SEED = 0

@@ -30,7 +30,7 @@ from tunelab.engine import (
     make_pruner,
     settled_config,
 )
-from tunelab.engine._metrics import score
+from tunelab.evaluation import score
 from tunelab.engine._objective import _epoch_reporter
 from tunelab.engine._pruning import MARGIN_SE, MedianPruner, RungPruner, choose_pruning, fold_noise
 from tunelab.errors import InputError

@@ -15,11 +15,12 @@ import pytest
 from sklearn import datasets as skdata
 
 from tunelab.data import prepare_frame
-from tunelab.data._metafeatures import SCALING_RULES, CostProbe, compute_metafeatures
+from tunelab.facts import compute_metafeatures, data_facts
 from tunelab.data._shared_scale import SHARED_SCALE_MIN_COLUMNS, shares_one_scale
-from tunelab.models import build_pipeline
+from tunelab.models import FAMILY_NAMES, build_pipeline
 from tunelab.models._preprocess import PooledScaler
-from tunelab.space import FAMILY_NAMES, build_space, numeric_map_choices
+from tunelab.probes import SCALING_RULES, CostProbe, numeric_map_choices
+from tunelab.space import build_space
 
 
 def _digits() -> pd.DataFrame:
@@ -90,7 +91,7 @@ def _space(frame: pd.DataFrame, *, mlp_seconds: float, budget: float) -> object:
                                 time_cap_s=30.0, probe_rows=100)
     costs = {f: 0.001 for f in FAMILY_NAMES} | {"mlp": mlp_seconds}
     probes = {f: CostProbe(f, "fixed for the test", 100, s, s, SCALING_RULES[f]) for f, s in costs.items()}
-    return build_space(dataset, dataclasses.replace(meta, cost=probes), budget_seconds=budget)
+    return build_space(data_facts(dataset, dataclasses.replace(meta, cost=probes)), budget_seconds=budget)
 
 
 def test_scaled_families_search_the_pooled_map_on_a_pixel_grid_and_say_why() -> None:

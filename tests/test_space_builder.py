@@ -21,11 +21,12 @@ import pytest
 from sklearn import datasets as skdata
 
 from tunelab.data import Dataset, prepare_frame
-from tunelab.data._metafeatures import SCALING_RULES, CostProbe, MetaFeatures, compute_metafeatures
-from tunelab.models import build_pipeline
+from tunelab.facts import MetaFeatures, compute_metafeatures, data_facts
+from tunelab.models import FAMILY_NAMES, build_pipeline
 from tunelab.models._families import MLP_RUNGS, mlp_rung_params
 from tunelab.models._preprocess import build_preprocessor, signed_log1p
-from tunelab.space import FAMILY_NAMES, SpaceSpec, TransformProbe, build_space
+from tunelab.probes import SCALING_RULES, CostProbe, TransformProbe
+from tunelab.space import SpaceSpec, build_space
 
 CHEAP = {f: 0.001 for f in FAMILY_NAMES}  # seconds per fit on all rows: every family affordable
 
@@ -96,7 +97,7 @@ def _data(kind: str) -> tuple[Dataset, MetaFeatures]:
 def _space(kind: str, *, budget: float | None = 600.0, costs: Mapping[str, float] = CHEAP,
            metric: str | None = None) -> SpaceSpec:
     dataset, meta = _data(kind)
-    return build_space(dataset, _with_costs(meta, costs), budget_seconds=budget, metric=metric)
+    return build_space(data_facts(dataset, _with_costs(meta, costs), metric=metric), budget_seconds=budget)
 
 
 def _mixed_dataset() -> Dataset:
@@ -241,7 +242,7 @@ def test_log_map_is_the_prior_on_skewed_data_without_a_probe() -> None:
 def test_the_transform_probe_orders_the_maps_and_says_so() -> None:
     dataset, meta = _data("skewed")
     probe = TransformProbe({"log": 0.80, "standard": 0.70, "quantile": 0.90}, "roc_auc", True, 1000, 3, 0.5)
-    space = build_space(dataset, _with_costs(meta, CHEAP), budget_seconds=600.0, transform_probe=probe)
+    space = build_space(data_facts(dataset, _with_costs(meta, CHEAP), transform_probe=probe), budget_seconds=600.0)
     spec = space.families["linear"].params["num_transform"]
     assert spec.choices == ("quantile", "log", "standard")
     assert "quantile first by the linear probe on 1000 rows" in spec.reason
@@ -296,7 +297,7 @@ def test_a_second_boosting_warm_start_hedges_the_regime_when_the_budget_allows()
 def test_text_and_datetime_columns_get_their_preprocessing() -> None:
     dataset = _mixed_dataset()
     meta = compute_metafeatures(dataset.X, dataset.y, dataset.task, dataset.roles, max_rows=600, probe_rows=100)
-    space = build_space(dataset, _with_costs(meta, CHEAP), budget_seconds=600.0)
+    space = build_space(data_facts(dataset, _with_costs(meta, CHEAP)), budget_seconds=600.0)
     assert {"prep.text_features", "prep.text_components"} <= set(space.params)
     assert "6.0" in space.params["prep.text_features"].reason  # mean words per value of the text column
     text = "\n".join(space.notes)
@@ -406,7 +407,7 @@ def test_log_numeric_transform_tames_a_long_tail() -> None:
 def test_every_family_and_parameter_has_a_one_line_reason() -> None:
     dataset = _mixed_dataset()
     meta = compute_metafeatures(dataset.X, dataset.y, dataset.task, dataset.roles, max_rows=600, probe_rows=100)
-    for space in (build_space(dataset, _with_costs(meta, CHEAP), budget_seconds=100_000.0), _space("imbalanced")):
+    for space in (build_space(data_facts(dataset, _with_costs(meta, CHEAP)), budget_seconds=100_000.0), _space("imbalanced")):
         assert space.family_reason
         for name, family in space.families.items():
             assert family.reason and "\n" not in family.reason, name
@@ -471,7 +472,7 @@ def test_cost_moves_an_expensive_family_back_in_the_warm_starts() -> None:
 @pytest.mark.slow
 def test_warm_starts_and_sampled_configs_build_and_fit() -> None:
     dataset, meta = _data("small")
-    space = build_space(dataset, _with_costs(meta, CHEAP), budget_seconds=100_000.0)
+    space = build_space(data_facts(dataset, _with_costs(meta, CHEAP)), budget_seconds=100_000.0)
     cardinality = {c.name: c.n_unique for c in dataset.columns}
     study = optuna.create_study(sampler=optuna.samplers.RandomSampler(seed=0))
     optuna.logging.set_verbosity(optuna.logging.WARNING)

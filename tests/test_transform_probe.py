@@ -1,4 +1,4 @@
-"""Specification of the numeric map probe (tunelab.space.probe_transforms).
+"""Specification of the numeric map probe (tunelab.probes.probe_transforms).
 
 The probe fits the linear family's pipeline under each numeric map on a row sample and scores
 held-out folds with the study's metric; the builder puts the best map first.
@@ -18,8 +18,8 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import StandardScaler
 
 from tunelab.data import prepare_frame
-from tunelab.engine._folds import make_folds
-from tunelab.space import probe_transforms
+from tunelab.evaluation import make_folds
+from tunelab.probes import probe_transforms
 
 
 def _breast_cancer():

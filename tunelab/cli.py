@@ -372,10 +372,9 @@ def profile(
     Example: tunelab profile sales.csv --target churned --budget 30m --write-space space.json
     """
     from tunelab import _render as r
-    from tunelab.data._similarity import similarity_vector
     from tunelab.engine import parse_duration
-    from tunelab.ops import profile_data
-    from tunelab.ops._learn import similar_studies
+    from tunelab.facts import similarity_vector
+    from tunelab.ops import profile_data, similar_studies
 
     seconds = parse_duration(budget) if budget else None
     report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed)

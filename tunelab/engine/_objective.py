@@ -47,8 +47,7 @@ from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
 from tunelab.store import keys
-from tunelab.engine._folds import make_folds
-from tunelab.engine._metrics import Metric, better, score, score_output
+from tunelab.evaluation import Metric, better, make_folds, score, score_output
 
 Report = Callable[[int, float], None]
 

@@ -50,7 +50,7 @@ from tunelab.store import keys
 PRUNING_CHOICES = ("auto", "off", "median", "halving", "hyperband")
 
 # Rungs at a third of the first fold and after every fold but the last (folds are at most five,
-# see tunelab.engine._folds).  With each trial also judged within its family, rungs after every
+# see tunelab.evaluation).  With each trial also judged within its family, rungs after every
 # fold measured 2.08-4.84x the configurations per minute of no pruning on six datasets (mean of
 # two seeds, benchmarks/README.md) against 1.58-5.31x for rungs at one third, one and two folds
 # judged across families only; the geometric ladder (1, 3, 9) saved less in replays.

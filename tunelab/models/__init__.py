@@ -9,7 +9,7 @@ from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
 from tunelab.models._row_cap import ROWS_KEY, capped_rows, row_cap
 
 FAMILY_NAMES: tuple[str, ...] = tuple(FAMILIES)
-"""Every model family tunelab can build, in the order spaces list them."""
+"""Every model family tunelab can build, in the one order everyone lists them (the registry's)."""
 
 __all__ = ["FAMILIES", "FAMILY_NAMES", "Family", "MLP_RUNGS", "ONE_HOT_MAX_CARDINALITY", "ROWS_KEY", "build_pipeline",
            "capped_rows", "check_columns", "family_params", "load_pipeline", "preload", "read_meta", "row_cap",

@@ -125,14 +125,16 @@ def _mlp(p: Mapping[str, Any], task: str, seed: int, threads: int) -> Any:
     return cls(random_state=seed, n_threads=threads, **kwargs)
 
 
+# The one registry of families, in the one order every other package lists them: the space builder
+# decides and breaks ranking ties in it, the cost probes time it, the generic space keeps it.
 FAMILIES: dict[str, Family] = {
-    "linear": Family("linear", "scaled", _linear),
+    "hist_gb": Family("hist_gb", "tree", _hist_gb),
     "random_forest": Family("random_forest", "tree", _forest(extra=False)),
     "extra_trees": Family("extra_trees", "tree", _forest(extra=True)),
-    "hist_gb": Family("hist_gb", "tree", _hist_gb),
-    "knn": Family("knn", "dense_scaled", _knn),
+    "linear": Family("linear", "scaled", _linear),
     "svm": Family("svm", "scaled", _svm),
     "mlp": Family("mlp", "dense_scaled", _mlp),
+    "knn": Family("knn", "dense_scaled", _knn),
 }
 
 

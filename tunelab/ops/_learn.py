@@ -6,7 +6,7 @@ earlier study's best complete trials are carried into the space built for the ne
 searches as usual, so a carried config that does not suit the new data costs one trial.
 
 When the user does not know which earlier study is like the new data, ``--learn-nearest K`` picks
-the K studies of the same task whose stored meta-features are nearest (``tunelab.data._similarity``).
+the K studies of the same task whose stored meta-features are nearest (``tunelab.facts.meta_distance``).
 """
 
 from __future__ import annotations
@@ -14,7 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any, Mapping
 
-from tunelab.data import meta_distance
+from tunelab.facts import meta_distance
 from tunelab.errors import InputError
 from tunelab.ops._trials import Phases
 from tunelab.space import carry_configs

@@ -2,23 +2,25 @@
 
 ``profile`` answers "what will ``run`` do with my data, and why?" before any trial is spent: each
 column's role, the meta-features, and the built space with a reason for every decision.  It is
-also the one place that decides how much meta-feature work a dataset gets (``built_space`` uses
-the same settings for ``run``), so the two verbs never disagree about the space.
+also the one place that decides how much meta-feature work a dataset gets and that measures a
+dataset's facts (``profile_facts``, which ``run`` calls too), so the two verbs never disagree
+about the space.
 """
 
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
 from tunelab.data import Dataset, load_dataset
-from tunelab.data._metafeatures import MetaFeatures, compute_metafeatures
-from tunelab.models._preprocess import ONE_HOT_MAX_CARDINALITY
-from tunelab.space import SpaceSpec, numeric_map_choices, probe_transforms
+from tunelab.evaluation import resolve_metric
+from tunelab.facts import DataFacts, MetaFeatures, compute_metafeatures, data_facts
+from tunelab.models import ONE_HOT_MAX_CARDINALITY
+from tunelab.probes import probe_transforms
+from tunelab.space import SpaceSpec, build_space
 from tunelab.values import plain
-from tunelab.space._builder import build_space, numeric_shares_one_scale
 
 # Meta-feature effort: landmarkers on at most this many rows, each stopped after this many seconds,
 # so 50,000 rows x 50 columns profile in a few seconds (statistics already cap their own rows).
@@ -128,6 +130,26 @@ def profile_metafeatures(dataset: Dataset, *, seed: int = 0) -> MetaFeatures:
                                 max_rows=rows, time_cap_s=_LANDMARK_CAP_S)
 
 
+def profile_facts(dataset: Dataset, *, metric: str | None = None, seed: int = 0) -> DataFacts:
+    """Measure a dataset's facts once: meta-features, the numeric-map probe, folds and metric.
+
+    The space builder reads only this value, so ``run`` and ``profile`` build the same space from
+    the same measurements.
+
+    Parameters
+    ----------
+    dataset
+        The loaded data.
+    metric
+        The study's metric, or ``None`` for the task's default; the numeric-map probe scores with it.
+    seed
+        Seeds the meta-feature subsamples and the probe's folds.
+    """
+    facts = data_facts(dataset, profile_metafeatures(dataset, seed=seed), metric=metric)
+    probe = probe_transforms(dataset, facts.metric, facts.numeric_maps, seed=seed)
+    return replace(facts, transform_probe=probe)
+
+
 def built_space(dataset: Dataset, *, budget_seconds: float | None, metric: str | None = None,
                 seed: int = 0) -> SpaceSpec:
     """The data-driven search space ``run`` uses when no ``--space`` file is given.
@@ -143,21 +165,7 @@ def built_space(dataset: Dataset, *, budget_seconds: float | None, metric: str |
     seed
         Seeds the meta-feature subsamples.
     """
-    return profiled_space(dataset, budget_seconds=budget_seconds, metric=metric, seed=seed)[0]
-
-
-def profiled_space(dataset: Dataset, *, budget_seconds: float | None, metric: str | None = None,
-                   seed: int = 0) -> tuple[SpaceSpec, MetaFeatures]:
-    """``built_space`` and the meta-features it was built from (``run`` stores them with the study)."""
-    meta = profile_metafeatures(dataset, seed=seed)
-    return _space(dataset, meta, budget_seconds, metric, seed), meta
-
-
-def _space(dataset: Dataset, meta: MetaFeatures, budget_seconds: float | None, metric: str | None,
-           seed: int) -> SpaceSpec:
-    choices = numeric_map_choices(meta.statistical.mean_abs_skewness, numeric_shares_one_scale(dataset))
-    probe = probe_transforms(dataset, metric, choices, seed=seed)
-    return build_space(dataset, meta, budget_seconds=budget_seconds, metric=metric, transform_probe=probe)
+    return build_space(profile_facts(dataset, metric=metric, seed=seed), budget_seconds=budget_seconds)
 
 
 def profile_data(path: str | Path, target: str, task: str | None = None, *,
@@ -192,11 +200,10 @@ def profile_data(path: str | Path, target: str, task: str | None = None, *,
     started = time.perf_counter()
     dataset = load_dataset(Path(path), target, task)
     if metric is not None:
-        from tunelab.engine import resolve_metric
-
         metric = resolve_metric(metric, dataset.task).name  # the same refusal as run's
-    meta = profile_metafeatures(dataset, seed=seed)
-    space = _space(dataset, meta, budget_seconds, metric, seed)
+    facts = profile_facts(dataset, metric=metric, seed=seed)
+    space = build_space(facts, budget_seconds=budget_seconds)
+    meta = facts.meta
     tokens = meta.simple.mean_text_tokens
     columns = tuple(ColumnProfile(c.name, c.role, c.reason, c.n_unique, c.missing_share,
                                   tokens.get(c.name) if c.role == "text" else None, _treatment(c.role, c.n_unique,
@@ -219,4 +226,4 @@ def _treatment(role: str, n_unique: int, missing_share: float) -> str:
     return "year, month, weekday, hour, day count"
 
 
-__all__ = ["ColumnProfile", "ProfileReport", "built_space", "profile_data", "profile_metafeatures", "profiled_space"]
+__all__ = ["ColumnProfile", "ProfileReport", "built_space", "profile_data", "profile_facts", "profile_metafeatures"]

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Callable
 
-from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset, similarity_vector
+from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset
 from tunelab.engine import (
     Budget,
     Clock,
@@ -30,14 +30,15 @@ from tunelab.engine import (
     settled_config,
 )
 from tunelab.errors import InputError, StudyStateError
+from tunelab.facts import similarity_vector
 from tunelab.models import FAMILIES, preload
 from tunelab.insight import Decisions
 from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
-from tunelab.ops._profile import profile_metafeatures, profiled_space
+from tunelab.ops._profile import profile_facts, profile_metafeatures
 from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
-from tunelab.space import SpaceSpec
+from tunelab.space import SpaceSpec, build_space
 from tunelab.store import Store, StudyRecord, keys
 
 
@@ -121,9 +122,9 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         if request.learn_nearest:  # only then is it worth the seconds of meta-features
             similarity = similarity_vector(profile_metafeatures(dataset, seed=request.seed))
     else:
-        space, meta = profiled_space(dataset, budget_seconds=request.budget.wall_seconds, metric=metric.name,
-                                     seed=request.seed)
-        similarity = similarity_vector(meta)
+        facts = profile_facts(dataset, metric=metric.name, seed=request.seed)
+        space = build_space(facts, budget_seconds=request.budget.wall_seconds)
+        similarity = similarity_vector(facts.meta)
     _check_space_fits(space, dataset)
     pruner_kind = request.pruning
     expected = _expected_trials(space, request.budget, request.jobs)

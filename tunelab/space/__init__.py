@@ -1,10 +1,10 @@
 """Search spaces: families, ranges, priors, and the serialisable spec stored with a study."""
 
-from tunelab.space._builder import FAMILY_NAMES, REFERENCE_BUDGET_S, build_space, numeric_map_choices
+from tunelab.space._builder import build_space
 from tunelab.space._carry import carry_config, carry_configs
 from tunelab.space._default import default_families, default_space
+from tunelab.space._rules_of_thumb import REFERENCE_BUDGET_S
 from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec, fixed
-from tunelab.space._transform_probe import TransformProbe, probe_transforms
 
-__all__ = ["FAMILY_NAMES", "FamilySpec", "ParamSpec", "REFERENCE_BUDGET_S", "SpaceSpec", "TransformProbe",
-           "build_space", "carry_config", "carry_configs", "default_families", "default_space", "fixed", "numeric_map_choices", "probe_transforms"]
+__all__ = ["FamilySpec", "ParamSpec", "REFERENCE_BUDGET_S", "SpaceSpec", "build_space", "carry_config",
+           "carry_configs", "default_families", "default_space", "fixed"]

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Mapping
 
+from tunelab.models import FAMILY_NAMES
 from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec
 
 
@@ -39,12 +40,13 @@ def default_families(task: str) -> dict[str, FamilySpec]:
         "l2_regularization": _f(1e-6, 10.0, log=True, reason="leaf value shrinkage"),
         "max_features": _f(0.3, 1.0, reason="share of features per split"),
     }
-    return {
+    generic = {
         "hist_gb": FamilySpec(hist_gb, "strong default for tabular data"),
         "random_forest": FamilySpec(forest, "robust, little tuning needed"),
         "extra_trees": FamilySpec(dict(forest), "lower variance than random forest on noisy data"),
         "linear": FamilySpec(linear, "fast baseline, good with many sparse features"),
     }
+    return {name: generic[name] for name in FAMILY_NAMES if name in generic}  # in the registry's order
 
 
 def default_space(task: str, roles: Mapping[str, str]) -> SpaceSpec:

@@ -3,9 +3,10 @@
 Skewness alone misleads: pixel intensities are zero-inflated and "highly skewed", yet a quantile
 map squeezes their scale away: on scikit-learn's digits it raises the linear model's log loss from
 0.12 to 0.30 and k-nearest neighbours' from 0.21 to 0.37, while on hpc's long tails the log map
-beats both others for the linear model and the SVM.  So the builder asks the data: the linear family's
+beats both others for the linear model and the SVM.  So the data is asked: the linear family's
 own pipeline, fitted with each map on a capped row sample and scored on held-out folds with the
-study's metric, orders the maps, and that order becomes the prior (first map = warm start).
+study's metric, orders the maps, and the space builder makes that order the prior (first map =
+warm start).  Which maps are tried at all follows the skewness rule (:func:`numeric_map_choices`).
 The linear model stands in for every scaled family because it is the cheapest one.  Checked side
 by side (``benchmarks/numeric_maps.py``, six benchmark datasets): its pick was within 1 % of the RBF
 SVM's best map on all six, but not of k-nearest neighbours' on three (digits, hpc, ames).
@@ -20,13 +21,27 @@ from dataclasses import dataclass
 from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
-from threadpoolctl import threadpool_limits
 
-from tunelab.data import Dataset
+from tunelab.data import HIGH_SKEWNESS, Dataset
+from tunelab.evaluation import make_folds, resolve_metric, score
+from tunelab.models import build_pipeline
+from tunelab.probes._threads import one_thread
 
 PROBE_ROWS = 1000  # rows of the sample: a few seconds at most for three maps × three folds
 PROBE_FOLDS = 3
 PROBE_CAP_S = 4.0  # the whole probe stops here; maps not reached are left unranked
+
+
+def numeric_map_choices(mean_abs_skewness: float | None, shared_scale: bool = False) -> tuple[str, ...]:
+    """The numeric maps scaled models search, in the order the rules prefer them.
+
+    Columns of one shared scale put the pooled map (one divisor for all) first; skewed columns
+    add the log map.
+    """
+    pooled = ("pooled",) if shared_scale else ()
+    if mean_abs_skewness is not None and mean_abs_skewness > HIGH_SKEWNESS:
+        return (*pooled, "log", "standard", "quantile")
+    return (*pooled, "standard", "quantile")
 
 
 @dataclass(frozen=True)
@@ -60,10 +75,6 @@ def probe_transforms(dataset: Dataset, metric: str | None, choices: Sequence[str
     Nothing here may stop a profile: a map whose fit fails or whose folds give no finite score is
     left out, and the probe stops at ``time_cap_s`` (checked before each fit).
     """
-    # imported here: the engine imports the space package
-    from tunelab.engine._folds import make_folds
-    from tunelab.engine._metrics import resolve_metric
-
     roles = dataset.roles
     if not any(role == "numeric" for role in roles.values()) or dataset.n_rows < 4 * PROBE_FOLDS:
         return None
@@ -77,9 +88,7 @@ def probe_transforms(dataset: Dataset, metric: str | None, choices: Sequence[str
         return None
     cardinality = {c.name: c.n_unique for c in dataset.columns}
     started = clock()
-    # One BLAS thread: on a busy machine a multi-threaded solver on a thousand rows spins more
-    # than it computes (digits: 10 s against 2.5 s for the whole probe under load).
-    with threadpool_limits(limits=1):
+    with one_thread():  # a thousand rows under load: 10 s with many threads, 2.5 s with one (digits)
         scores = _scores(X, y, folds, choices, roles, cardinality, dataset.task, resolved, seed,
                          lambda: clock() - started > time_cap_s)
     if len(scores) < 2:
@@ -91,9 +100,6 @@ def probe_transforms(dataset: Dataset, metric: str | None, choices: Sequence[str
 def _scores(X: Any, y: np.ndarray, folds: Sequence[tuple[np.ndarray, np.ndarray]], choices: Sequence[str],
             roles: Mapping[str, str], cardinality: Mapping[str, int], task: str, metric: Any, seed: int,
             out_of_time: Callable[[], bool]) -> dict[str, float]:
-    from tunelab.engine._metrics import score
-    from tunelab.models import build_pipeline
-
     scores: dict[str, float] = {}
     for choice in choices:
         fold_scores: list[float] = []
@@ -115,4 +121,4 @@ def _scores(X: Any, y: np.ndarray, folds: Sequence[tuple[np.ndarray, np.ndarray]
     return scores
 
 
-__all__ = ["PROBE_CAP_S", "PROBE_FOLDS", "PROBE_ROWS", "TransformProbe", "probe_transforms"]
+__all__ = ["PROBE_CAP_S", "PROBE_FOLDS", "PROBE_ROWS", "TransformProbe", "numeric_map_choices", "probe_transforms"]

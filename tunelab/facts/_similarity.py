@@ -17,11 +17,10 @@ from __future__ import annotations
 import math
 from typing import Mapping
 
-from tunelab.data._metafeatures import MetaFeatures
+from tunelab.facts._metafeatures import MetaFeatures
+from tunelab.probes import LANDMARKERS
 
 SimilarityVector = dict[str, float]
-
-_LANDMARKERS = ("one_nn", "decision_stump", "naive_bayes", "linear")
 
 
 def similarity_vector(meta: MetaFeatures) -> SimilarityVector:
@@ -45,7 +44,7 @@ def similarity_vector(meta: MetaFeatures) -> SimilarityVector:
         vector["class_balance"] = info.class_entropy / math.log2(s.n_classes)
     if info.imbalance_ratio:
         vector["imbalance"] = 1.0 - 1.0 / info.imbalance_ratio
-    scores = {name: getattr(lm, name) for name in _LANDMARKERS if getattr(lm, name) is not None}
+    scores = {name: getattr(lm, name) for name in LANDMARKERS if getattr(lm, name) is not None}
     if scores:
         best = max(scores.values())
         vector["landmark_best"] = best
