@@ -207,7 +207,12 @@ def test_unknown_metric_for_the_task_is_refused(cli, small_csv, store_path):
 
 
 def test_debug_shows_the_traceback(cli, small_csv, store_path):
-    with pytest.raises(Exception):
+    # Without --debug the same mistake is one line; with it, the error itself propagates.
+    from tunelab.errors import InputError
+
+    assert "nope" in one_line_error(cli("run", str(small_csv), "--target", "nope", "--budget", "5s",
+                                        "--store", str(store_path)))
+    with pytest.raises(InputError, match="nope"):
         cli("--debug", "run", str(small_csv), "--target", "nope", "--budget", "5s", "--store", str(store_path))
 
 

@@ -132,10 +132,21 @@ def test_regression_and_multiclass_tasks_are_inferred(cli, tmp_path, store_path)
     assert multi["metric"] == "log_loss"
 
 
-def test_export_rebuilds_what_the_space_fixed_one_family_and_frozen_knobs():
+def test_export_rebuilds_what_the_space_fixed_one_family_and_frozen_knobs(cli, small_csv, store_path, tmp_path):
+    # A one-family space with a knob held fixed: trials never sample either, yet the exported
+    # pipeline must be the family's, with the fixed value in place.
+    from tunelab.models import load_pipeline, read_meta
     from tunelab.space import FamilySpec, ParamSpec, SpaceSpec, fixed
 
-    space = SpaceSpec(families={"hist_gb": FamilySpec({"max_iter": fixed(300), "learning_rate":
-                                                        ParamSpec("float", low=0.01, high=0.3)})})
-    assert space.complete({"hist_gb.learning_rate": 0.1}) == {
-        "hist_gb.learning_rate": 0.1, "family": "hist_gb", "hist_gb.max_iter": 300}
+    space = tmp_path / "space.json"
+    space.write_text(SpaceSpec(families={"hist_gb": FamilySpec({
+        "learning_rate": fixed(0.137), "max_iter": fixed(20),
+        "max_leaf_nodes": ParamSpec("int", low=4, high=16)})}).to_json(), encoding="utf-8")
+    assert cli("run", str(small_csv), "--target", "y", "--trials", "3", "--space", str(space),
+               "--store", str(store_path), "--study", "fixed", "-q").code == 0
+    model = tmp_path / "fixed.zip"
+    assert cli("export", "fixed", "--out", str(model), "--store", str(store_path)).code == 0
+    meta = read_meta(model)
+    assert meta["config"]["family"] == "hist_gb" and meta["config"]["hist_gb.learning_rate"] == 0.137
+    estimator = load_pipeline(model, meta).named_steps["model"]
+    assert type(estimator).__name__ == "HistGradientBoostingClassifier" and estimator.learning_rate == 0.137

@@ -42,8 +42,34 @@ def test_public_modules_export_exactly_what_they_list(module):
         assert hasattr(mod, name), f"{module}.{name} is listed but missing"
 
 
-def test_no_color_is_respected(cli, store_path, small_csv, monkeypatch):
-    monkeypatch.setenv("NO_COLOR", "1")
+def _on_a_terminal(args: list[str], env: dict[str, str]) -> str:
+    """Run ``tunelab ARGS`` with its output on a pseudo-terminal, as in a user's shell; return what it drew."""
+    import os
+    import pty
+    import subprocess
+    import sys
+
+    leader, follower = pty.openpty()
+    proc = subprocess.Popen([sys.executable, "-m", "tunelab", *args], stdout=follower, stderr=follower,
+                            env={**os.environ, "TERM": "xterm-256color", "COLUMNS": "120", **env})
+    os.close(follower)
+    chunks = []
+    while True:
+        try:
+            chunk = os.read(leader, 65536)
+        except OSError:  # the terminal closed with the process
+            break
+        if not chunk:
+            break
+        chunks.append(chunk)
+    proc.wait(timeout=60)
+    os.close(leader)
+    return b"".join(chunks).decode("utf-8", "replace")
+
+
+def test_no_color_is_respected_on_a_terminal(cli, store_path, small_csv, monkeypatch):
+    monkeypatch.delenv("NO_COLOR", raising=False)
     cli("run", str(small_csv), "--target", "y", "--trials", "1", "--store", str(store_path), "-q")
-    result = cli("status", "--store", str(store_path))
-    assert "\x1b[" not in result.out
+    args = ["status", "--store", str(store_path)]
+    assert "\x1b[" in _on_a_terminal(args, {})  # on a terminal the table is styled ...
+    assert "\x1b[" not in _on_a_terminal(args, {"NO_COLOR": "1"})  # ... unless NO_COLOR says not to

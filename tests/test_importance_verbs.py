@@ -121,7 +121,7 @@ def test_freeze_auto_then_resume_on_the_demo_data_runs_in_the_narrowed_space(cli
                "-q").code == 0
     frozen = cli("freeze", "d", "--auto", "--store", store, "--json")
     if frozen.code != 0:  # too few trials to freeze anything by verdict: freeze a knob by hand instead
-        assert "can be frozen" in frozen.err
+        assert "can be dropped or frozen" in frozen.err
         frozen = cli("freeze", "d", "family=hist_gb", "--store", store, "--json")
     assert frozen.code == 0, frozen.err
     first = json.loads(frozen.out)["first_trial"]

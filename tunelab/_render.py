@@ -15,8 +15,16 @@ from tunelab.engine import Progress, format_duration
 
 # Piped output (files, CI logs) gets room for the tables instead of the 80-column fallback.
 _PIPE_WIDTH = None if sys.stdout.isatty() or os.environ.get("COLUMNS") else 140
-out = Console(highlight=False, soft_wrap=True, width=_PIPE_WIDTH)
-err = Console(stderr=True, highlight=False, soft_wrap=True)
+# NO_COLOR (no-color.org) asks for plain output: no colour, and here no bold or dim either, since a
+# terminal that cannot show colour usually shows escape codes for those as junk too.
+def _console(stderr: bool, width: int | None) -> Console:
+    if os.environ.get("NO_COLOR"):
+        return Console(stderr=stderr, highlight=False, soft_wrap=True, width=width, color_system=None)
+    return Console(stderr=stderr, highlight=False, soft_wrap=True, width=width)
+
+
+out = _console(False, _PIPE_WIDTH)
+err = _console(True, None)
 
 
 def fmt(value: float | None, digits: int = 4) -> str:

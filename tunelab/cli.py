@@ -56,18 +56,9 @@ WorthOpt = typer.Option(None, "--worth", metavar="GAIN",
 
 def _decision_options(horizon: str, worth: str | None, **more: Any) -> Any:
     """Parse --horizon and --worth into the options every deciding verb takes."""
-    from tunelab.engine import parse_duration
-    from tunelab.errors import InputError
-    from tunelab.ops import DecisionOptions
+    from tunelab.api import decision_options
 
-    gain = None
-    if worth is not None:
-        try:
-            gain = float(worth)
-        except ValueError:
-            raise InputError(f"--worth must be a number in metric units, got '{worth}'",
-                             "e.g. --worth 0.001: the smallest gain worth another stretch") from None
-    return DecisionOptions(horizon=parse_duration(horizon, "--horizon"), worth=gain, **more)
+    return decision_options(horizon, worth, **more)
 
 
 @app.callback()
@@ -263,7 +254,7 @@ def worker(
     """Join a study from this machine and work on it until its budget is spent.
 
     Point every machine at the same database, e.g.
-    tunelab worker sales --store postgresql://tuner@db-host/studies --jobs 4
+    tunelab worker sales --store postgresql://alex@db-host/studies --jobs 4
     """
     _check_study_exists(study, store)  # fail fast, before the heavy imports
     from tunelab.ops import resume_study

@@ -23,7 +23,6 @@ from tunelab.engine._stop import raise_pending
 OutcomeKind = Literal["complete", "pruned", "failed", "timeout"]
 ShouldPrune = Callable[[int, float], bool]
 _POLL_SECONDS = 0.1
-_CLOCK_TICKS = os.sysconf("SC_CLK_TCK") if hasattr(os, "sysconf") else 100
 
 
 @dataclass
@@ -201,15 +200,16 @@ def _own_cpu() -> float:
 
 
 def _process_cpu(pid: int | None) -> float:
-    """CPU seconds a live process has used, from /proc (0 where unavailable)."""
+    """CPU seconds a live process has used (0 once it is gone); psutil reads it on any platform."""
     if pid is None:
         return 0.0
+    import psutil
+
     try:
-        with open(f"/proc/{pid}/stat") as handle:
-            fields = handle.read().rsplit(")", 1)[1].split()
-        return (int(fields[11]) + int(fields[12])) / _CLOCK_TICKS
-    except (OSError, IndexError, ValueError):
+        times = psutil.Process(pid).cpu_times()
+    except (psutil.Error, OSError):
         return 0.0
+    return float(times.user + times.system)
 
 
 def _error_text(exc: BaseException) -> str:

@@ -471,17 +471,17 @@ def _sqlite_pragmas(dbapi_conn: Any, _record: Any) -> None:
 
 
 def _pid_alive(pid: int) -> bool:
-    """Whether a process on this host is alive; a zombie (killed, not yet reaped) counts as dead."""
+    """Whether a process on this host is alive; a zombie (killed, not yet reaped) counts as dead.
+
+    psutil reads it on any platform (Linux's /proc, the BSDs' sysctl, Windows' process table).
+    """
+    import psutil
+
     try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
+        return psutil.Process(pid).status() != psutil.STATUS_ZOMBIE
+    except psutil.NoSuchProcess:
         return False
-    except PermissionError:
-        return True
-    try:
-        with open(f"/proc/{pid}/stat") as handle:
-            return handle.read().rsplit(")", 1)[1].split()[0] != "Z"
-    except (OSError, IndexError):
+    except (psutil.AccessDenied, OSError):
         return True
 
 
