@@ -241,3 +241,108 @@ def test_a_space_file_offering_the_gamma_loss_for_a_target_below_zero_is_refused
                               "--store", str(store_path)))
     assert "gamma" in line and "above zero" in line and "drop that choice" in line
     assert not store_path.exists()  # refused before anything is written
+
+
+# ---------------------------------------------------------------- every verb x every class of bad input
+
+# (verb and arguments, what the one line must say).  Placeholders: {store} the seeded store, {data} its
+# data file, {model} a good model file of it, {damaged} that model with one byte changed in the middle,
+# {missing} a path that does not exist, {empty} an empty file, {folder} a folder, {text} a text file.
+BAD_INPUTS = {
+    "missing file": [
+        (["run", "{missing}", "--target", "y", "--budget", "5s", "--store", "{store}"], "not found"),
+        (["profile", "{missing}", "--target", "y"], "not found"),
+        (["predict", "{missing}", "{data}", "--out", "{folder}/p.csv"], "not found"),
+        (["predict", "{model}", "{missing}", "--out", "{folder}/p.csv"], "not found"),
+        (["resume", "first", "--data", "{missing}", "--store", "{store}"], "gone"),
+        (["run", "{data}", "--target", "y", "--budget", "5s", "--space", "{missing}", "--store", "{store}"],
+         "not found"),
+    ],
+    "empty file": [
+        (["run", "{empty}", "--target", "y", "--budget", "5s", "--store", "{store}"], "empty"),
+        (["profile", "{empty}", "--target", "y"], "empty"),
+        (["predict", "{empty}", "{data}", "--out", "{folder}/p.csv"], "not a tunelab model file"),
+        (["predict", "{model}", "{empty}", "--out", "{folder}/p.csv"], "empty"),
+    ],
+    "wrong type": [
+        (["run", "{folder}", "--target", "y", "--budget", "5s", "--store", "{store}"], ""),
+        (["predict", "{data}", "{data}", "--out", "{folder}/p.csv"], "not a tunelab model file"),
+        (["run", "{data}", "--target", "y", "--budget", "5s", "--space", "{text}", "--store", "{store}"],
+         "not valid JSON"),
+        (["status", "--store", "{text}"], "not a SQLite database"),
+        (["export", "first", "--out", "{folder}", "--store", "{store}"], "is a folder"),
+        (["run", "{data}", "--target", "y", "--task", "ranking", "--budget", "5s", "--store", "{store}"], "ranking"),
+    ],
+    "unknown study": [
+        ([verb, "nosuch", "--store", "{store}"], "no study named 'nosuch'")
+        for verb in ("status", "resume", "worker", "importance", "report")
+    ] + [
+        (["freeze", "nosuch", "--auto", "--store", "{store}"], "no study named 'nosuch'"),
+        (["export", "nosuch", "--out", "{folder}/m.zip", "--store", "{store}"], "no study named 'nosuch'"),
+    ],
+    "bad URL": [
+        ([*verb, "--store", "nosuchdb://host/x"], "store URL scheme 'nosuchdb'")
+        for verb in (["status"], ["status", "first"], ["resume", "first"], ["worker", "first"],
+                     ["importance", "first"], ["freeze", "first", "--auto"], ["report", "first"],
+                     ["export", "first", "--out", "{folder}/m.zip"],
+                     ["run", "{data}", "--target", "y", "--budget", "5s"])
+    ],
+    "damaged model": [
+        (["predict", "{damaged}", "{data}", "--out", "{folder}/p.csv"], "is damaged"),
+    ],
+    "bad number": [
+        (["run", "{data}", "--target", "y", "--trials", "many", "--store", "{store}"], "--trials"),
+        (["run", "{data}", "--target", "y", "--budget", "5s", "--jobs", "two", "--store", "{store}"], "--jobs"),
+        (["status", "first", "--top", "x", "--store", "{store}"], "--top"),
+        (["status", "first", "--worth", "lots", "--store", "{store}"], "--worth must be a number"),
+        (["importance", "first", "--worth", "lots", "--store", "{store}"], "--worth must be a number"),
+        (["importance", "first", "--tolerance", "tiny", "--store", "{store}"], "--tolerance"),
+        (["report", "first", "--worth", "lots", "--store", "{store}"], "--worth must be a number"),
+        (["resume", "first", "--worth", "lots", "--store", "{store}"], "--worth must be a number"),
+        (["export", "first", "--trial", "best", "--out", "{folder}/m.zip", "--store", "{store}"], "--trial"),
+        (["freeze", "first", "linear.C=lots", "--store", "{store}"], "is not a number"),
+    ],
+    "bad duration": [
+        (["run", "{data}", "--target", "y", "--budget", "soon", "--store", "{store}"], "cannot read budget"),
+        (["run", "{data}", "--target", "y", "--budget", "5s", "--cpu-budget", "-1m", "--store", "{store}"], "--cpu-budget"),
+        (["resume", "first", "--extend", "later", "--store", "{store}"], "cannot read --extend"),
+        (["profile", "{data}", "--target", "y", "--budget", "0"], "budget"),
+        (["status", "first", "--horizon", "forever", "--store", "{store}"], "cannot read --horizon"),
+        (["importance", "first", "--horizon", "0", "--store", "{store}"], "--horizon"),
+        (["report", "first", "--horizon", "1x", "--store", "{store}"], "cannot read --horizon"),
+    ],
+}
+CASES = [(klass, i, args, expected) for klass, rows in BAD_INPUTS.items() for i, (args, expected) in enumerate(rows)]
+
+
+@pytest.fixture(scope="module")
+def model_files(seeded_template, tmp_path_factory) -> tuple[Path, Path]:
+    """A good model file of the seeded study, and a copy with one byte changed in the middle."""
+    from tunelab.ops import export_model
+
+    store, _ = seeded_template
+    folder = tmp_path_factory.mktemp("models")
+    good = folder / "good.zip"
+    export_model("first", good, store=str(store))
+    data = bytearray(good.read_bytes())
+    data[len(data) // 2] ^= 0xFF
+    damaged = folder / "damaged.zip"
+    damaged.write_bytes(bytes(data))
+    return good, damaged
+
+
+@pytest.mark.parametrize("klass, index, args, expected", CASES, ids=[f"{c[0]}-{c[1]}" for c in CASES])
+def test_every_verb_refuses_each_class_of_bad_input_in_one_line(klass, index, args, expected, tmp_path,
+                                                                seeded_store, model_files, cli):
+    (tmp_path / "empty.csv").write_bytes(b"")
+    (tmp_path / "notes.txt").write_text("this is not a search space, nor a store\n", encoding="utf-8")
+    folder = tmp_path / "out"
+    folder.mkdir()
+    places = {"store": str(seeded_store), "data": str(tmp_path / "small.csv"), "model": str(model_files[0]),
+              "damaged": str(model_files[1]), "missing": str(tmp_path / "no-such-file.csv"),
+              "empty": str(tmp_path / "empty.csv"), "folder": str(folder), "text": str(tmp_path / "notes.txt")}
+    before = digest(seeded_store)
+    line = one_line_error(cli(*[a.format(**places) for a in args]))
+    assert expected in line
+    assert digest(seeded_store) == before
+    assert list(folder.iterdir()) == []  # nothing written, not even half a file

@@ -193,7 +193,7 @@ def run(
 
     look = _decision_options(horizon, worth)
     wall = parse_duration(budget) if budget else (None if trials else 600.0)
-    box = Budget(wall, parse_duration(cpu_budget) if cpu_budget else None, trials)
+    box = Budget(wall, parse_duration(cpu_budget, "--cpu-budget") if cpu_budget else None, trials)
     request = RunRequest(data=data, target=target, budget=box, store=store, study=study, task=task, metric=metric,
                          seed=seed, space_file=space, pruning=pruning, jobs=jobs,
                          learn_from=tuple(learn or ()), learn_nearest=nearest)
@@ -230,7 +230,7 @@ def resume(
     from tunelab.ops import resume_study
 
     look = _decision_options(horizon, worth)
-    seconds = parse_duration(extend) if extend else 0.0
+    seconds = parse_duration(extend, "--extend") if extend else 0.0
     announce, progress, close = _progress_hooks({}, quiet or json_out)
     try:
         result = resume_study(study, store=store, extend_seconds=seconds, extend_trials=more_trials, data=data,

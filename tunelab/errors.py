@@ -47,7 +47,15 @@ class BudgetError(TunelabError):
 
 
 class StoreError(TunelabError):
-    """The store cannot be opened, is not a tunelab store, or was written by a newer tunelab."""
+    """The store cannot be opened, is not a tunelab store, or was written by a newer tunelab.
+
+    ``transient`` marks a fault that may pass on its own (a lost or refused connection): a search
+    waits and tries again for a while before it gives up.
+    """
+
+    def __init__(self, message: str, hint: str = "", *, transient: bool = False) -> None:
+        super().__init__(message, hint)
+        self.transient = transient
 
 
 class StudyNotFound(StoreError):

@@ -13,6 +13,7 @@ import threading
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
+from optuna.exceptions import UpdateFinishedTrialError
 from optuna.trial import TrialState
 
 from tunelab.engine._budget import Budget, Spent, remaining
@@ -24,6 +25,9 @@ from tunelab.engine._stop import StopRequested, clear_stop, hold_stops, raise_pe
 from tunelab.engine._study import SearchStudy
 from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord, keys
+
+
+LOST = "lost"  # the state of a launch another process declared dead
 
 
 @dataclass
@@ -53,6 +57,8 @@ class SearchSummary:
     exit_code: int = 0
     recovered: list[int] = field(default_factory=list)
     requeued: list[int] = field(default_factory=list)
+    lost: bool = False  # another process declared this launch dead; nothing it ran after that was recorded
+    reconnected: int = 0  # times the store stopped answering and the launch waited for it
 
 
 @dataclass
@@ -65,6 +71,7 @@ class SearchSettings:
     started: float | None = None  # when the user's launch began (process start), if before this call
     phase: int = 1
     kind: str = "run"
+    reconnect_seconds: float = 30.0  # how long a launch waits for a store that stopped answering
 
 
 class _Heartbeat:
@@ -75,6 +82,7 @@ class _Heartbeat:
         self.store, self.launch_id, self.clock, self.started = store, launch_id, clock, started
         self.interval, self.runner = interval, runner
         self.trials_done = 0
+        self.lost = False  # another process declared this launch dead (see Store.beat)
         self.cpu0 = _cpu_total()
         self._stop = threading.Event()
         self._lock = threading.Lock()
@@ -87,11 +95,16 @@ class _Heartbeat:
         live = getattr(self.runner, "live_cpu", lambda: 0.0)()
         return _cpu_total() - self.cpu0 + live
 
-    def beat(self) -> None:
+    def beat(self) -> bool:
+        """Write the launch's spend; False (and ``lost`` from then on) once it was declared dead."""
         with self._lock:
+            if self.lost:
+                return False
             now = self.clock.now()
-            self.store.beat(self.launch_id, now=now, wall_seconds=max(0.0, now - self.started),
-                            cpu_seconds=self.cpu_seconds(), trials_done=self.trials_done)
+            alive = self.store.beat(self.launch_id, now=now, wall_seconds=max(0.0, now - self.started),
+                                    cpu_seconds=self.cpu_seconds(), trials_done=self.trials_done)
+            self.lost = not alive
+            return alive
 
     def _loop(self) -> None:
         while not self._stop.wait(self.interval):
@@ -123,12 +136,20 @@ def search(store: Store, record: StudyRecord, study: SearchStudy, space: SpaceSp
     launch = _Launch(store, record, study, space, runner, clock, settings, started, box, summary)
     state = "finished"
     try:
-        while not launch.should_stop(budget):
-            kind = launch.run_one_trial()
+        while True:
+            try:
+                if launch.should_stop(budget):
+                    break
+                kind = launch.run_one_trial()
+            except Exception as exc:  # the store may have stopped answering for a while
+                launch.wait_for_store(exc)
+                continue
             if on_progress is not None:
                 on_progress(launch.progress(kind))
-            if kind == keys.INTERRUPTED:
+            if kind in (keys.INTERRUPTED, LOST):
                 break
+        if summary.lost:
+            state = LOST
     except (KeyboardInterrupt, StopRequested) as exc:
         launch.stopped_by(exc)
         state = "interrupted"
@@ -197,6 +218,9 @@ class _Launch:
             self.summary.requeued += found.requeued
             self.next_recovery = self.clock.now() + self.settings.recovery_interval
         raise_pending()
+        if self.heartbeat.lost:
+            self._lost()
+            return True
         finished_total = self.store.count_finished(self.record.name) if budget.trials is not None else 0
         reason = _stop_reason(self.clock.now(), self.box.deadline, self.box.cpu, self.heartbeat, budget.trials,
                               finished_total, self.durations)
@@ -215,8 +239,15 @@ class _Launch:
         hook = _PruningHook(self.trial)
         outcome = self.runner.run(config, hook, Limits(self.box.deadline, cpu_left), self.clock)
         with hold_stops():  # the outcome is recorded whole, then a stop acts
-            kind = _record(self.study, self.trial, outcome, self.clock.now() - t0, hook.reports,
-                           getattr(self.runner, "objective", None))
+            if not self.heartbeat.beat():  # declared dead while the trial ran: its result is not ours to record
+                self._lost()
+                return LOST
+            try:
+                kind = _record(self.study, self.trial, outcome, self.clock.now() - t0, hook.reports,
+                               getattr(self.runner, "objective", None))
+            except UpdateFinishedTrialError:  # recovered by another worker between the beat and the write
+                self._lost()
+                return LOST
             self.trial = None
             self.counts[kind] += 1
         if kind == "complete":
@@ -227,6 +258,45 @@ class _Launch:
         if kind == keys.INTERRUPTED:
             self.summary.stop_reason = outcome.extras.get("stopped_by", "time budget") + " spent during a trial"
         return kind
+
+    def _lost(self) -> None:
+        self.summary.lost = True
+        self.summary.stop_reason = (f"lost: another process declared this launch dead after its heartbeat stopped "
+                                    f"for more than {self.settings.stale_after:.0f}s, and re-queued its trial")
+        self.trial = None
+
+    def wait_for_store(self, exc: Exception) -> None:
+        """A store error in the loop: wait for a store that stopped answering, else give up with it.
+
+        A lost or refused connection is waited for with backoff (1, 2, 4 ... seconds) for at most
+        ``reconnect_seconds``; once the store answers, the trial that was running is recorded as
+        interrupted and re-queued once, as after a kill, and the search goes on.  Any other error,
+        or a store still silent at the end, ends the launch with that error.
+        """
+        failure = self.store.translate(exc, "record a trial", self.record.name)
+        if failure is None or not failure.transient:
+            raise exc
+        give_up = self.clock.now() + self.settings.reconnect_seconds
+        pause = 1.0
+        while True:
+            if self.clock.now() + pause > give_up:
+                raise failure from exc
+            self.clock.sleep(pause)
+            pause = min(2 * pause, 8.0)
+            try:
+                self.store.ping()
+                self.abandon()  # the trial in hand (if any) is interrupted ...
+                found = recover(self.store, self.record, self.study, now=self.clock.now(),  # ... and re-queued once
+                                stale_after=self.settings.stale_after, phase=self.settings.phase, own_launch=self.id)
+            except Exception as again:  # still away: wait on, up to the bound
+                if self.store.translate(again, "reach the store") is None:
+                    raise
+                continue
+            self.trial = None
+            self.summary.reconnected += 1
+            self.summary.recovered += found.interrupted
+            self.summary.requeued += found.requeued
+            return
 
     def progress(self, kind: str) -> Progress:
         return Progress(started=self.started, box_seconds=self.box.wall, trials=sum(self.counts.values()),

@@ -241,6 +241,11 @@ def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Data
         else:
             summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
                              on_progress=on_progress)
+    if summary.lost:
+        raise StudyStateError(f"this {settings.kind if settings else 'run'} of study '{record.name}' was declared dead "
+                              f"after its heartbeat stopped (the process or machine was frozen); another worker "
+                              f"re-queued its trial, and nothing it ran after that was recorded",
+                              f"if the study has budget left, join it again: tunelab worker {record.name}")
     return RunResult(record.name, store.location.display(), record.metric, record.direction, summary,
                      _best_config(store, record, summary, space), _first_look(store, record, summary, look))
 

@@ -19,7 +19,7 @@ from sqlalchemy import create_engine, event, func, inspect, select, text, update
 from sqlalchemy.engine import Engine
 from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 
-from tunelab.errors import StoreError, StudyNotFound
+from tunelab.errors import InputError, StoreError, StudyNotFound
 from tunelab.store import _keys as k
 from tunelab.store import _schema as s
 from tunelab.store._location import Location, check_sqlite_file, resolve
@@ -246,6 +246,25 @@ class Store:
                      budget_wall: float | None, budget_cpu: float | None, budget_trials: int | None,
                      settings: dict[str, Any], space_json: str, space_reason: str) -> StudyRecord:
         """Insert a study and its first phase in one transaction."""
+        from sqlalchemy.exc import IntegrityError
+
+        try:
+            self._insert_study(name=name, now=now, data_path=data_path, data_sha256=data_sha256,
+                               fingerprint=fingerprint, target=target, task=task, metric=metric, direction=direction,
+                               seed=seed, budget_wall=budget_wall, budget_cpu=budget_cpu, budget_trials=budget_trials,
+                               settings=settings, space_json=space_json, space_reason=space_reason)
+        except StoreError as exc:
+            if isinstance(exc.__cause__, IntegrityError):  # another launch created it a moment ago
+                raise InputError(f"study '{name}' already exists in {self.location.display()}: another launch "
+                                 f"created it a moment ago", f"join it with `tunelab worker {name}`, or pick another "
+                                                             "--study name") from exc
+            raise
+        return self.get_study(name)
+
+    def _insert_study(self, *, name: str, now: float, data_path: str, data_sha256: str, fingerprint: str,
+                      target: str, task: str, metric: str, direction: str, seed: int, budget_wall: float | None,
+                      budget_cpu: float | None, budget_trials: int | None, settings: dict[str, Any],
+                      space_json: str, space_reason: str) -> None:
         with self._translate("create the study"), self.engine.begin() as conn:
             study_id = conn.execute(s.studies.insert().values(
                 name=name, created_at=utc_iso(now), data_path=data_path, data_sha256=data_sha256,
@@ -255,7 +274,6 @@ class Store:
             )).inserted_primary_key[0]
             conn.execute(s.phases.insert().values(study_id=study_id, number=1, created_at=utc_iso(now),
                                                   reason=space_reason, space_json=space_json, first_trial=0))
-        return self.get_study(name)
 
     def get_study(self, name: str) -> StudyRecord:
         """A study by name.  Raises StudyNotFound with the closest names as a hint."""
@@ -313,12 +331,24 @@ class Store:
                 wall_seconds=0.0, cpu_seconds=0.0, trials_done=0, state="running", stop_reason="",
             )).inserted_primary_key[0])
 
-    def beat(self, launch_id: int, *, now: float, wall_seconds: float, cpu_seconds: float, trials_done: int) -> None:
-        """The heartbeat: what this launch has spent so far (a crash loses at most one interval)."""
+    def beat(self, launch_id: int, *, now: float, wall_seconds: float, cpu_seconds: float, trials_done: int) -> bool:
+        """The heartbeat: what this launch has spent so far (a crash loses at most one interval).
+
+        Written only while the launch is *running*: False means another process declared it dead
+        (its heartbeat stopped for too long, as when a machine or process is frozen), and its time
+        from then on is no longer the study's.
+        """
         with self._translate("write the heartbeat"), self.engine.begin() as conn:
-            conn.execute(update(s.launches).where(s.launches.c.id == launch_id).values(
+            result = conn.execute(update(s.launches).where(s.launches.c.id == launch_id)
+                                  .where(s.launches.c.state == "running").values(
                 heartbeat_at=utc_iso(now), heartbeat_epoch=now, wall_seconds=wall_seconds,
                 cpu_seconds=cpu_seconds, trials_done=trials_done))
+            return bool(result.rowcount == 1)
+
+    def ping(self) -> None:
+        """One round trip to the database (raises the translated store error when it does not answer)."""
+        with self._translate("reach the store"), self.engine.connect() as conn:
+            conn.execute(text("select 1"))
 
     def end_launch(self, launch_id: int, *, state: str, reason: str) -> None:
         with self._translate("close the launch"), self.engine.begin() as conn:
@@ -509,11 +539,12 @@ def _store_error(location: Location, doing: str, exc: DBAPIError, study: str | N
         return StoreError(f"cannot log in to {where}: {text}", "check the user and password in the store URL")
     if "could not connect" in lowered or "connection refused" in lowered or "timeout expired" in lowered \
             or "could not translate host" in lowered:
-        return StoreError(f"cannot reach the database at {where}: {text}", "check the host, port and that the server runs")
-    if "server closed the connection" in lowered or "connection" in lowered and ("lost" in lowered or "closed" in lowered
-                                                                              or "terminat" in lowered):
+        return StoreError(f"cannot reach the database at {where}: {text}", "check the host, port and that the server runs",
+                          transient=True)
+    if exc.connection_invalidated or "server closed the connection" in lowered or "could not receive data" in lowered \
+            or "connection" in lowered and ("lost" in lowered or "closed" in lowered or "terminat" in lowered):
         return StoreError(f"lost the connection to the database at {where}: {text}",
-                          f"check the network and the server, then {again}")
+                          f"check the network and the server, then {again}", transient=True)
     if "does not exist" in lowered and "database" in lowered:
         return StoreError(f"database in {where} does not exist: {text}", "create it first, e.g. createdb NAME")
     if "readonly" in lowered or "read-only" in lowered or "permission" in lowered:
