@@ -148,15 +148,17 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
                       **({SIMILARITY_KEY: similarity} if similarity else {})},
             space_json=space.to_json(), space_reason=space.family_reason or "initial search space",
         )
-        study = open_search_study(store, record, launch_number=0, create=True)
-        for source, config in learned.configs:
-            study.queue(config, **{keys.WARM_START: True, LEARNED_ATTR: source})
-        for config in space.warm_starts:
-            study.queue(config, **{keys.WARM_START: True})
-        return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
-                       clock=clock, announce=announce,
-                       on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
-                       jobs=request.jobs, notes=[*dataset.notes, *learned.notes], look=look)
+        with store.guard("create the study", name):
+            study = open_search_study(store, record, launch_number=0, create=True)
+            for source, config in learned.configs:
+                study.queue(config, **{keys.WARM_START: True, LEARNED_ATTR: source})
+            for config in space.warm_starts:
+                study.queue(config, **{keys.WARM_START: True})
+        with store.guard("run the study", name):
+            return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
+                           clock=clock, announce=announce,
+                           on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
+                           jobs=request.jobs, notes=[*dataset.notes, *learned.notes], look=look)
 
 
 def resume_study(name: str, *, store: str | None = None, extend_seconds: float = 0.0, extend_trials: int = 0,
@@ -195,18 +197,20 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
         phases = st.phases(record.id)
         space = SpaceSpec.from_json(phases[-1].space_json)
         launches = len(st.launches(record.id))
-        study = open_search_study(st, record, launch_number=launches, create=False,
-                                  salt=os.getpid() if kind == "worker" else 0, dropped=space.dropped)
-        if study.fresh:  # its creation was cut short before the warm starts were queued
-            for config in space.warm_starts:
-                study.queue(config, **{keys.WARM_START: True})
+        with st.guard("open the study", name):
+            study = open_search_study(st, record, launch_number=launches, create=False,
+                                      salt=os.getpid() if kind == "worker" else 0, dropped=space.dropped)
+            if study.fresh:  # its creation was cut short before the warm starts were queued
+                for config in space.warm_starts:
+                    study.queue(config, **{keys.WARM_START: True})
         settings = settings or SearchSettings()
         settings.phase = phases[-1].number
         settings.kind = kind
-        return _launch(st, record, study, dataset, space, budget, dataset_path=path.resolve(), clock=clock,
-                       announce=announce,
-                       on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=True,
-                       jobs=jobs, notes=dataset.notes, look=look)
+        with st.guard("run the study", name):
+            return _launch(st, record, study, dataset, space, budget, dataset_path=path.resolve(), clock=clock,
+                           announce=announce,
+                           on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=True,
+                           jobs=jobs, notes=dataset.notes, look=look)
 
 
 def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec, budget: Budget, *,

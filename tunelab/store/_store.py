@@ -216,6 +216,19 @@ class Store:
                               "run again with --debug for details")
         return None
 
+    @contextlib.contextmanager
+    def guard(self, doing: str, study: str | None = None) -> Iterator[None]:
+        """Turn a database fault inside the block (optuna's included) into a one-line store error."""
+        try:
+            yield
+        except StoreError:
+            raise
+        except Exception as exc:
+            failure = self.translate(exc, doing, study)
+            if failure is None:
+                raise
+            raise failure from exc
+
     def optuna_storage(self) -> Any:
         """optuna's RDB storage on the same database (trials, params, intermediate values).
 
