@@ -78,11 +78,11 @@ import time
 import traceback
 import uuid
 from collections import Counter
-from collections.abc import Iterator, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from contextlib import contextmanager
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 if __package__ in (None, ""):  # run as a script: make `benchmarks` importable
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))

@@ -12,7 +12,6 @@ import subprocess
 import sys
 import time
 import uuid
-from pathlib import Path
 
 import optuna
 import pytest
@@ -182,7 +181,6 @@ def test_the_schema_is_created_the_same_on_postgres_and_sqlite(pg_url, tmp_path)
 @pytest.mark.parametrize("store_kind", ["sqlite", pytest.param("postgres", marks=pytest.mark.postgres)])
 def test_a_report_reads_a_study_the_same_from_postgres_and_sqlite(store_kind, tmp_path, request):
     from test_report import make_study
-
     from tunelab.engine import FakeClock
     from tunelab.ops import write_report
 

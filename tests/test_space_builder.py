@@ -11,8 +11,9 @@ import dataclasses
 import json
 import math
 import warnings
+from collections.abc import Mapping
 from functools import cache
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 import optuna

@@ -10,8 +10,8 @@ from __future__ import annotations
 import contextlib
 import errno
 import os
+from collections.abc import Callable
 from pathlib import Path
-from typing import Callable
 
 from tunelab.errors import InputError
 

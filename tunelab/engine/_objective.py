@@ -39,15 +39,16 @@ from __future__ import annotations
 import math
 import time
 import warnings
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Callable, Iterable, Mapping, Protocol
+from typing import Any, Protocol
 
 import numpy as np
 from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
-from tunelab.store import keys
 from tunelab.evaluation import Metric, better, make_folds, score, score_output
+from tunelab.store import keys
 
 Report = Callable[[int, float], None]
 
@@ -177,7 +178,7 @@ class CrossValidationObjective:
                     warnings.simplefilter("ignore")
                     held_out = _HeldOut(self.metric, y[test], self.dataset.classes)
                     fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, lambda step, value: None)
-            except Exception:  # noqa: BLE001 - only a warm-up
+            except Exception:  # only a warm-up
                 continue
 
     def __call__(self, config: Mapping[str, Any], report: Report) -> TrialResult:

@@ -13,8 +13,9 @@ import multiprocessing as mp
 import os
 import signal
 import traceback
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Callable, Literal, Mapping
+from typing import Any, Literal
 
 from tunelab.engine._clock import Clock
 from tunelab.engine._objective import Objective, PruneSignal, TrialResult

@@ -10,8 +10,9 @@ import contextlib
 import os
 import statistics
 import threading
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Any
 
 from optuna.trial import TrialState
 
@@ -161,7 +162,7 @@ class _Box:
         return self.wall == 0 or self.cpu == 0 or self.trials == 0
 
     @classmethod
-    def left(cls, store: Store, record: StudyRecord, budget: Budget, started: float, now: float) -> "_Box":
+    def left(cls, store: Store, record: StudyRecord, budget: Budget, started: float, now: float) -> _Box:
         # Wall time is the union of launch intervals: this launch counts from its process start, and
         # time other live launches already cover is not counted twice (a joining worker gets their deadline).
         wall_spent, cpu_spent = store.spent(record.id, extra=(started, now))
@@ -331,7 +332,7 @@ def _mark_orphans_interrupted(study: SearchStudy) -> int:
     for number in study.running_here():
         try:
             marked += study.mark_interrupted(number)
-        except Exception:  # noqa: BLE001 - the store is gone: the next launch's recovery handles it
+        except Exception:  # the store is gone: the next launch's recovery handles it
             continue
     return marked
 

@@ -9,8 +9,9 @@ comparable scores with the dropped families' knobs marked, then the stop-or-cont
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Literal, Mapping, Sequence
+from typing import Any, Literal
 
 import numpy as np
 

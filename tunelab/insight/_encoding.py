@@ -7,8 +7,9 @@ log-scaled range on the log scale, integers and categorical choices as equal-wid
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 

@@ -17,8 +17,9 @@ best of many favours the family, so a drop errs on the side of keeping it.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal, Sequence
+from typing import Literal
 
 from tunelab.insight._evidence import comparable, fold_fit
 from tunelab.insight._pace import Pace

@@ -10,8 +10,8 @@ from __future__ import annotations
 import logging
 import math
 import warnings
+from collections.abc import Iterator, Mapping, Sequence
 from contextlib import contextmanager
-from typing import Iterator, Mapping, Sequence
 
 import numpy as np
 

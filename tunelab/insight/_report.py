@@ -63,7 +63,7 @@ class Reason:
 
     subject: str
     text: str
-    children: tuple["Reason", ...] = ()
+    children: tuple[Reason, ...] = ()
     fold: bool = False  # children behind a click (a family's parameter ranges), so the list stays short
 
 
@@ -110,7 +110,7 @@ class ReportData:
     reasons: Sequence[Reason]
     phases: Sequence[tuple[int, int, str]] = field(default_factory=tuple)  # (phase, first trial, why)
     written_at: str = ""
-    family_verdicts: Sequence["FamilyVerdict"] = field(default_factory=tuple)
+    family_verdicts: Sequence[FamilyVerdict] = field(default_factory=tuple)
     forecast: str = ""  # what another stretch of search is likely to buy, in one line
 
 

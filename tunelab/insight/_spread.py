@@ -19,8 +19,8 @@ judged on its reach, interactions included.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Mapping
 
 import numpy as np
 

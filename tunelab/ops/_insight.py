@@ -8,8 +8,9 @@ from __future__ import annotations
 
 import math
 import statistics
+from collections.abc import Mapping
 from dataclasses import asdict, dataclass, field
-from typing import Any, Mapping
+from typing import Any
 
 from tunelab.engine import Clock, SystemClock
 from tunelab.errors import InputError, StudyStateError

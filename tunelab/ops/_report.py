@@ -2,9 +2,6 @@
 
 from __future__ import annotations
 
-import contextlib
-import math
-import os
 import re
 from dataclasses import asdict, dataclass
 from pathlib import Path

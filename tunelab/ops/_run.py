@@ -5,9 +5,10 @@ from __future__ import annotations
 import os
 import re
 import signal
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset
 from tunelab.engine import (
@@ -31,8 +32,8 @@ from tunelab.engine import (
 )
 from tunelab.errors import InputError, StudyStateError
 from tunelab.facts import similarity_vector
-from tunelab.models import FAMILIES, preload
 from tunelab.insight import Decisions
+from tunelab.models import FAMILIES, preload
 from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
 from tunelab.ops._profile import profile_facts, profile_metafeatures
@@ -40,7 +41,6 @@ from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
 from tunelab.space import SpaceSpec, build_space
 from tunelab.store import Store, StudyRecord, keys
-
 
 THREADS_PER_TRIAL = 1
 # The importance computation's allowance in run's first look; with the rest it stays within 5 s.

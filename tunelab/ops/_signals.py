@@ -9,7 +9,8 @@ from __future__ import annotations
 import contextlib
 import signal
 import threading
-from typing import Any, Iterator
+from collections.abc import Iterator
+from typing import Any
 
 from tunelab.engine import StopRequested, clear_stop, holding, request_stop
 

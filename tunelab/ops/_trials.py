@@ -23,7 +23,7 @@ class Phases:
     spaces: dict[int, SpaceSpec]
 
     @classmethod
-    def of(cls, store: Store, record: StudyRecord) -> "Phases":
+    def of(cls, store: Store, record: StudyRecord) -> Phases:
         rows = tuple(store.phases(record.id))
         return cls(rows, {p.number: SpaceSpec.from_json(p.space_json) for p in rows})
 
@@ -73,7 +73,7 @@ class Ledger:
     intervals: tuple[tuple[float, float], ...]
 
     @classmethod
-    def of(cls, launches: list[LaunchRecord]) -> "Ledger":
+    def of(cls, launches: list[LaunchRecord]) -> Ledger:
         return cls(tuple((ln.started_epoch, ln.started_epoch + ln.wall_seconds) for ln in launches))
 
     @property

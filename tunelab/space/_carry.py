@@ -10,7 +10,8 @@ family out for this data, usually for its cost).
 from __future__ import annotations
 
 import math
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 from tunelab.space._spec import ParamSpec, SpaceSpec
 

@@ -11,8 +11,9 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
-from typing import Any, Literal, Mapping
+from typing import Any, Literal
 
 import optuna
 from optuna.distributions import (
@@ -93,7 +94,7 @@ class ParamSpec:
         return out
 
     @classmethod
-    def from_dict(cls, data: Mapping[str, Any]) -> "ParamSpec":
+    def from_dict(cls, data: Mapping[str, Any]) -> ParamSpec:
         known = {"kind", "low", "high", "log", "choices", "value", "reason"}
         unknown = set(data) - known
         if unknown:
@@ -189,7 +190,7 @@ class SpaceSpec:
             return self.families[family].params[pname]
         return None
 
-    def freeze(self, values: Mapping[str, Any], reason: str, drop: tuple[str, ...] = ()) -> "SpaceSpec":
+    def freeze(self, values: Mapping[str, Any], reason: str, drop: tuple[str, ...] = ()) -> SpaceSpec:
         """A narrowed copy: each named parameter held at its value (``family`` keeps one family), and
         the families in ``drop`` dropped.
 
@@ -242,7 +243,7 @@ class SpaceSpec:
         return json.dumps(self.to_dict(), indent=2, sort_keys=False)
 
     @classmethod
-    def from_dict(cls, data: Mapping[str, Any]) -> "SpaceSpec":
+    def from_dict(cls, data: Mapping[str, Any]) -> SpaceSpec:
         version = data.get("version", SPEC_VERSION)
         if version > SPEC_VERSION:
             raise InputError(f"search space spec version {version} is newer than this tunelab understands",
@@ -262,7 +263,7 @@ class SpaceSpec:
         )
 
     @classmethod
-    def from_json(cls, text: str) -> "SpaceSpec":
+    def from_json(cls, text: str) -> SpaceSpec:
         try:
             data = json.loads(text)
         except json.JSONDecodeError as exc:

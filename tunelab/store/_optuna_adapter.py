@@ -26,9 +26,10 @@ from __future__ import annotations
 
 import copy
 import json
+from collections.abc import Container, Sequence
 from dataclasses import dataclass, field
 from datetime import datetime
-from typing import Any, Container, Sequence
+from typing import Any
 
 from optuna.distributions import BaseDistribution, check_distribution_compatibility, distribution_to_json
 from optuna.storages import RDBStorage
@@ -37,7 +38,6 @@ from optuna.storages._rdb import models
 from optuna.storages._rdb.storage import _create_scoped_session
 from optuna.trial import FrozenTrial, TrialState
 from sqlalchemy import insert, select, update
-
 
 # Each private name this module uses: (module, attribute) pairs checked by ``missing_private_names``;
 # attributes of instances are checked on a live storage by the adapter's test.
@@ -296,7 +296,7 @@ class _Batch:
     def __bool__(self) -> bool:
         return bool(self.params or self.user or self.system or self.steps)
 
-    def then(self, later: "_Batch") -> "_Batch":
+    def then(self, later: _Batch) -> _Batch:
         return _Batch({**self.params, **later.params}, {**self.user, **later.user},
                       {**self.system, **later.system}, {**self.steps, **later.steps})
 

@@ -8,8 +8,9 @@ above the store needs optuna's types, its attribute names, or its state words.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any, Iterable, Literal, Mapping
+from typing import TYPE_CHECKING, Any, Literal
 
 from tunelab.store import _keys as k
 
@@ -134,7 +135,7 @@ def origin_of(attrs: Mapping[str, Any]) -> str:
     return "prior" if warm else "search"
 
 
-def state_of(trial: "FrozenTrial") -> TrialState:
+def state_of(trial: FrozenTrial) -> TrialState:
     """Our state word for an optuna trial: FAIL means failed or interrupted, by our attribute."""
     name = trial.state.name
     if name == "COMPLETE":
@@ -151,7 +152,7 @@ def state_of(trial: "FrozenTrial") -> TrialState:
 _RECORD_KEYS = {k.LAUNCH, k.PHASE, k.STATE, k.FOLD_SCORES}
 
 
-def record_of(trial: "FrozenTrial") -> TrialRecord:
+def record_of(trial: FrozenTrial) -> TrialRecord:
     """The plain record of one optuna trial."""
     attrs = trial.user_attrs
     state = state_of(trial)

@@ -11,17 +11,17 @@ import contextlib
 import json
 import os
 import socket
+from collections.abc import Iterator
 from dataclasses import dataclass
 from datetime import datetime, timezone
-from typing import Any, Iterator
+from typing import Any
 
 from sqlalchemy import create_engine, event, func, inspect, select, text, update
 from sqlalchemy.engine import Engine
 from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 
 from tunelab.errors import StoreError, StudyNotFound
-from tunelab.store import _keys as k
-from tunelab.store import _schema as s
+from tunelab.store import _keys as k, _schema as s
 from tunelab.store._location import Location, check_sqlite_file, resolve
 from tunelab.store._records import TrialRecord, best_of, record_of
 
@@ -98,7 +98,7 @@ class Store:
 
     # ---- opening -------------------------------------------------------------------------
     @classmethod
-    def open(cls, store: str | None = None, *, create: bool = False) -> "Store":
+    def open(cls, store: str | None = None, *, create: bool = False) -> Store:
         """Open (and with ``create``, initialise) the store at a path or URL.
 
         Raises
@@ -183,7 +183,7 @@ class Store:
                 self._optuna.dispose()
         self.engine.dispose()
 
-    def __enter__(self) -> "Store":
+    def __enter__(self) -> Store:
         return self
 
     def __exit__(self, *exc: object) -> None:
