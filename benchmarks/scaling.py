@@ -565,7 +565,8 @@ def run_plain_point(backend: str, jobs: int, budget: float, sleep_seconds: float
 
 
 def print_file_table(rows: list[dict[str, Any]], backends: list[str], jobs: list[int]) -> str:
-    """Workers down the side; per backend: trials per minute, ratio to one worker, errors, 'locked'; then the verdict."""
+    """Workers down the side; per backend: trials per minute, ratio to one worker, errors, 'locked'; then the
+    verdict."""
     by = {(r["store"], r["workers"]): r for r in rows}
     head = f"{'workers':>7}"
     for b in backends:

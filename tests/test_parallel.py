@@ -89,7 +89,8 @@ def test_four_workers_share_a_study_and_survive_one_being_killed(tmp_path, store
     small_frame(3000).to_csv(data, index=False)  # trials of a few seconds: a kill lands mid-trial
     env = {**os.environ, "TUNELAB_STORE": store_url}
     main = subprocess.Popen(TUNELAB + ["run", str(data), "--target", "y", "--budget", "75s", "--study", "shared",
-                                       "--pruning", "off", "-q"], env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+                                       "--pruning", "off", "-q"], env=env, stdout=subprocess.DEVNULL,
+                            stderr=subprocess.PIPE)
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline and not _study_exists(store_url):
         time.sleep(0.2)

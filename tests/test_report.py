@@ -29,7 +29,8 @@ def family_space(reason: str = "a wide range on purpose") -> SpaceSpec:
         families={
             "a": FamilySpec({"strong": ParamSpec("float", low=0, high=1, reason=reason),
                              "idle": ParamSpec("float", low=0, high=1)}, reason="cheap and smooth"),
-            "b": FamilySpec({"k": ParamSpec("int", low=1, high=10, reason="few neighbours")}, reason="a different bias"),
+            "b": FamilySpec({"k": ParamSpec("int", low=1, high=10, reason="few neighbours")},
+                            reason="a different bias"),
         },
         family_reason="both families fit the budget",
         notes=("a note about the data",),

@@ -191,7 +191,8 @@ def print_importance(record: Any, decisions: Any) -> None:
     out.print(f"outlook: {decisions.forecast_line()}")
     firm = decisions.firm()
     if firm:
-        out.print(f"act on it: tunelab freeze {record.name} --auto   ({len(firm)} decision{'s' if len(firm) > 1 else ''})")
+        out.print(f"act on it: tunelab freeze {record.name} --auto   "
+                  f"({len(firm)} decision{'s' if len(firm) > 1 else ''})")
 
 
 def print_first_look(study: str, decisions: Any) -> None:

@@ -394,7 +394,8 @@ def profile(
 @app.command()
 def importance(
     study: str = typer.Argument(..., help="Study whose finished trials to analyse."),
-    method: str = typer.Option("fanova", "--method", help="fanova (variance shares) or ped-anova (what the top trials share)."),
+    method: str = typer.Option("fanova", "--method",
+                               help="fanova (variance shares) or ped-anova (what the top trials share)."),
     family: str | None = typer.Option(None, "--family", help="Only this model family's parameters and trials."),
     tolerance: float | None = typer.Option(None, "--tolerance",
                                            help="Smallest score change that matters, in metric units. "

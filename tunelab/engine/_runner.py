@@ -133,7 +133,8 @@ class ForkRunner:
                 cpu = message[-1]
                 child.join()
                 if tag == "done":
-                    return Outcome("complete", result=message[1], last_step=last_step, last_value=last_value, cpu_seconds=cpu)
+                    return Outcome("complete", result=message[1], last_step=last_step, last_value=last_value,
+                                   cpu_seconds=cpu)
                 if tag == "pruned":
                     return Outcome("pruned", last_step=last_step, last_value=last_value, cpu_seconds=cpu)
                 return Outcome("failed", error=message[1], last_step=last_step, last_value=last_value, cpu_seconds=cpu)

@@ -580,7 +580,8 @@ def _row(name: str, group: _Group, stat: _Stat | None, best_value: Any, clear_be
                              verdict, action, reason, n, needed)
 
     if dropped:
-        return make("family dropped", "family dropped", f"family {group.family} was dropped: its best trails the leader")
+        return make("family dropped", "family dropped",
+                    f"family {group.family} was dropped: its best trails the leader")
     if stat is None:
         more = max(1, th.min_trials - n)
         return make("undecided", "undecided", _undecided_words(more, group.family, settings.pace,
@@ -603,8 +604,8 @@ def _row(name: str, group: _Group, stat: _Stat | None, best_value: Any, clear_be
                                                   f"score moves {spread:.3g}")
     beyond_chance = max(tolerance, floor.reach)
     if stat.reach > beyond_chance:
-        return make("keep tuning", "keep tuning", f"it moves a trial's score by {stat.reach:.3g}, more than a knob doing "
-                                                  f"nothing ({beyond_chance:.3g}); importance up to {high:.3f}")
+        return make("keep tuning", "keep tuning", f"it moves a trial's score by {stat.reach:.3g}, more than a knob "
+                                                  f"doing nothing ({beyond_chance:.3g}); importance up to {high:.3f}")
     more = _projected(imp, low, high, n, th)
     return make("undecided", "undecided",
                 _undecided_words(more, group.family, settings.pace,

@@ -98,7 +98,8 @@ def ped_anova_replicates(trials: Sequence[TrialRecord], names: Sequence[str], sp
         def shares(keep: np.ndarray) -> np.ndarray:
             # A non-finite target leaves a trial out, so one study serves every half.
             result = evaluator.evaluate(study, params=list(names),
-                                        target=lambda t: t.value if keep[t.number] and t.value is not None else math.nan)
+                                        target=lambda t: (t.value if keep[t.number] and t.value is not None
+                                                          else math.nan))
             raw = np.array([result[name] for name in names])
             return raw / raw.sum() if raw.sum() > 0 else raw
 

@@ -1,7 +1,7 @@
 """How far each parameter moves the predicted score, and the spread a knob that does nothing shows.
 
-Boosted trees predict the score from a group's parameters (``_forest`` says why not a forest).  The predicted score is averaged
-over the trials while one parameter is set to each of its values in turn (partial dependence;
+Boosted trees predict the score from a group's parameters (``_forest`` says why not a forest).  The predicted
+score is averaged over the trials while one parameter is set to each of its values in turn (partial dependence;
 from memory: Friedman 2001, *Annals of Statistics* 29(5)); continuous parameters are binned into
 ``SPREAD_BINS`` equal-width bins on their sampling scale, integers with few values and categoricals
 use each value.  The spread is the max - min of that marginal mean score, in metric units.  The

@@ -120,7 +120,8 @@ def _empty_family() -> dict[str, Any]:
 
 
 def _family_lines(families: dict[str, dict[str, Any]], maximize: bool) -> list[FamilyLine]:
-    lines = [FamilyLine(name, f["trials"], f["complete"], f["pruned"], f["best"], f["at"]) for name, f in families.items()]
+    lines = [FamilyLine(name, f["trials"], f["complete"], f["pruned"], f["best"], f["at"])
+             for name, f in families.items()]
 
     def rank(line: FamilyLine) -> tuple[bool, float]:  # best families first, those without a score last
         if line.best is None:

@@ -110,7 +110,8 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
     work after the launch closes, not charged to the budget).
     """
     if request.study is not None and not request.study.strip():
-        raise InputError("--study is empty", "give the study a name, or leave out --study to name it after the data file")
+        raise InputError("--study is empty",
+                         "give the study a name, or leave out --study to name it after the data file")
     clock = clock or SystemClock()
     dataset = load_dataset(request.data, request.target, request.task)
     metric = resolve_metric(request.metric, dataset.task)
@@ -209,8 +210,8 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
                        jobs=jobs, notes=dataset.notes, look=look)
 
 
-def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec, budget: Budget, *,
-            dataset_path: Path,
+def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec,
+            budget: Budget, *, dataset_path: Path,
             clock: Clock, announce: Announce | None, on_progress: OnProgress | None,
             runner_factory: Callable[[Any], Any], settings: SearchSettings | None, resumed: bool, jobs: int,
             notes: list[str], look: DecisionOptions | None = None) -> RunResult:

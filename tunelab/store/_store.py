@@ -504,14 +504,16 @@ def _store_error(location: Location, doing: str, exc: DBAPIError, study: str | N
     if "disk is full" in lowered or "no space left" in lowered or "disk full" in lowered:
         return StoreError(f"disk full at {where}", f"free space, then {again}")
     if "not a database" in lowered or "malformed" in lowered:
-        return StoreError(f"{where} is corrupt or not a SQLite database", "pass another --store; keep the file for inspection")
+        return StoreError(f"{where} is corrupt or not a SQLite database",
+                          "pass another --store; keep the file for inspection")
     if "authentication" in lowered or ("role" in lowered and "does not exist" in lowered):
         return StoreError(f"cannot log in to {where}: {text}", "check the user and password in the store URL")
     if "could not connect" in lowered or "connection refused" in lowered or "timeout expired" in lowered \
             or "could not translate host" in lowered:
-        return StoreError(f"cannot reach the database at {where}: {text}", "check the host, port and that the server runs")
-    if "server closed the connection" in lowered or "connection" in lowered and ("lost" in lowered or "closed" in lowered
-                                                                              or "terminat" in lowered):
+        return StoreError(f"cannot reach the database at {where}: {text}",
+                          "check the host, port and that the server runs")
+    if "server closed the connection" in lowered or "connection" in lowered and (
+            "lost" in lowered or "closed" in lowered or "terminat" in lowered):
         return StoreError(f"lost the connection to the database at {where}: {text}",
                           f"check the network and the server, then {again}")
     if "does not exist" in lowered and "database" in lowered:
