@@ -135,7 +135,7 @@ def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
             for r in pair.values():
                 groups.setdefault((r["dataset"], r["pruning"]), []).append(r)
     pooled = []
-    for (name, pruning), group in groups.items():
+    for group in groups.values():
         counts: dict[str, int] = {}
         for r in group:
             for key, value in r["counts"].items():

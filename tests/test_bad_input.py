@@ -207,7 +207,7 @@ def test_unknown_metric_for_the_task_is_refused(cli, small_csv, store_path):
 
 
 def test_debug_shows_the_traceback(cli, small_csv, store_path):
-    with pytest.raises(Exception):
+    with pytest.raises(Exception):  # noqa: B017 - any error: the point is that --debug lets it out
         cli("--debug", "run", str(small_csv), "--target", "nope", "--budget", "5s", "--store", str(store_path))
 
 

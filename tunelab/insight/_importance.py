@@ -570,7 +570,6 @@ def _row(name: str, group: _Group, stat: _Stat | None, best_value: Any, clear_be
          tolerance: float, floor: Floor, dropped: bool) -> ImportanceRow:
     th = settings.thresholds
     n = len(group.trials)
-    measurable = max(tolerance, floor.spread)
 
     def make(action: Action, verdict: str, reason: str, needed: int | None = None) -> ImportanceRow:
         if stat is None:

@@ -18,7 +18,7 @@ from typing import Any
 from tunelab.errors import InputError
 from tunelab.facts import meta_distance
 from tunelab.ops._trials import Phases
-from tunelab.space import carry_configs
+from tunelab.space import SpaceSpec, carry_configs
 from tunelab.store import Store, best_of, keys, ranked, resolve
 
 LEARN_TOP = 3  # best complete trials carried from each earlier study (common practice, no source)
