@@ -507,7 +507,7 @@ def _judge_group(group: _Group, space: Mapping[str, ParamSpec], settings: _Setti
                  seed: int) -> tuple[list[ImportanceRow], GroupNote]:
     th = settings.thresholds
     n = len(group.trials)
-    scores = np.array([float(t.value) for t in group.trials])  # type: ignore[arg-type]
+    scores = np.array([t.score for t in group.trials])
     tolerance = _tolerance(th, scores)
     stats: dict[str, _Stat] = {}
     floor: Floor | None = None

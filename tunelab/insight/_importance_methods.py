@@ -91,7 +91,7 @@ def ped_anova_replicates(trials: Sequence[TrialRecord], names: Sequence[str], sp
         study = optuna.create_study(direction="minimize")
         study.add_trials([
             optuna.trial.create_trial(params={name: t.params[name] for name in names}, distributions=dists,
-                                      value=sign * float(t.value))  # type: ignore[arg-type]
+                                      value=sign * t.score)
             for t in trials
         ])
 

@@ -86,7 +86,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
     for t in trials:
         counts[t.state] += 1
         if t.scored:
-            points.append(ChartPoint(t.number, float(t.value), t.state))  # type: ignore[arg-type]
+            points.append(ChartPoint(t.number, t.score, t.state))  # type: ignore[arg-type]  # scored: complete or pruned
         if t.state in ("running", "waiting"):
             continue
         family = phases.family(t)
@@ -94,8 +94,8 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
             line = families.setdefault(family, _empty_family())
             line["trials"] += 1
             line[t.state] = line.get(t.state, 0) + 1
-            if t.state == "complete" and t.scored and better(float(t.value), line["best"]):  # type: ignore[arg-type]
-                line["best"], line["at"] = float(t.value), t.number  # type: ignore[arg-type]
+            if t.state == "complete" and t.scored and better(t.score, line["best"]):
+                line["best"], line["at"] = t.score, t.number
     best = best_of(trials, record.direction)
     importance, note = _importance(record.name, decisions)
     return ReportData(
@@ -106,7 +106,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
         last_activity=max((ln.heartbeat_at for ln in launches), default=None), launches=len(launches),
         wall_spent=wall, wall_budget=record.budget_wall, cpu_spent=cpu, cpu_budget=record.budget_cpu,
         trials_cap=record.budget_trials, counts=counts,
-        best=None if best is None else BestTrial(best.number, float(best.value), best.fold_std,  # type: ignore[arg-type]
+        best=None if best is None else BestTrial(best.number, best.score, best.fold_std,
                                                  phases.family(best), phases.config(best)),
         points=points, families=_family_lines(families, maximize),
         importance=importance, importance_note=note, reasons=space_reasons(phases.current),

@@ -94,7 +94,7 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
         }
         sha = write_model_file(out, pipeline, meta)
         st.record_export(record.id, now=clock.now(), path=str(out.resolve()), sha256=sha, trial_number=chosen.number)
-    return ExportResult(record.name, str(out), sha, chosen.number, record.metric, float(chosen.value),
+    return ExportResult(record.name, str(out), sha, chosen.number, record.metric, chosen.score,
                         str(config.get("family", "")))
 
 

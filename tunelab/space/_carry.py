@@ -65,5 +65,6 @@ def _within(spec: ParamSpec, value: Any) -> Any:
         return _DROP
     if math.isnan(number):
         return _DROP
-    number = min(max(number, float(spec.low)), float(spec.high))  # type: ignore[arg-type]
+    low, high = spec.bounds
+    number = min(max(number, float(low)), float(high))
     return int(round(number)) if spec.kind == "int" else number
