@@ -9,11 +9,14 @@ import sys
 import threading
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any, Protocol, TypeGuard
 
 import typer
 
 from tunelab.errors import TunelabError
+
+if TYPE_CHECKING:
+    from tunelab.ops import RunResult
 
 app = typer.Typer(
     name="tunelab",
@@ -75,7 +78,7 @@ def _root(ctx: typer.Context,
     ctx.obj.debug = debug
 
 
-def _search_output(result: Any, json_out: bool) -> int:
+def _search_output(result: RunResult, json_out: bool) -> int:
     from tunelab import _render as r
 
     s = result.summary
@@ -503,7 +506,13 @@ def report(
                     "open it in a browser")
 
 
-def _is_usage_error(exc: BaseException) -> bool:
+class _UsageError(Protocol):
+    exit_code: int
+
+    def format_message(self) -> str: ...
+
+
+def _is_usage_error(exc: BaseException) -> TypeGuard[_UsageError]:
     """typer's usage errors (a bad option value, a missing argument) carry exit code 2 and a message."""
     return getattr(exc, "exit_code", None) == EXIT_BAD_INPUT and callable(getattr(exc, "format_message", None))
 
@@ -533,7 +542,7 @@ def main(argv: list[str] | None = None) -> None:
         ctx = getattr(exc, "ctx", None)
         name = getattr(ctx, "info_name", None)
         where = f"tunelab {name}" if name and name != "tunelab" else "tunelab"
-        message = " ".join(exc.format_message().split())  # type: ignore[attr-defined]
+        message = " ".join(exc.format_message().split())
         sys.stderr.write(f"tunelab: error: {message} — see `{where} --help`\n")
         sys.exit(EXIT_BAD_INPUT)
     sys.exit(code if isinstance(code, int) else 0)
