@@ -72,7 +72,7 @@ def study_evidence(st: Store, record: StudyRecord) -> StudyEvidence:
     pace = Pace(ledger.spent, len(ended), by_family, max(1, len(current.kept_families)))
     finished_at = {t.number: ledger.at(t.finished) for t in named if t.finished is not None}
     return StudyEvidence(trials=tuple(named), space=phases.distributions(), families=tuple(current.families),
-                         dropped=current.dropped, direction=record.direction,  # type: ignore[arg-type]
+                         dropped=current.dropped, direction=record.direction,
                          metric=record.metric, finished_at=finished_at, spent=ledger.spent, pace=pace)
 
 

@@ -100,7 +100,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
     importance, note = _importance(record.name, decisions)
     return ReportData(
         study=record.name, data_path=record.data_path, target=record.target, task=record.task, metric=record.metric,
-        direction=record.direction,  # type: ignore[arg-type]
+        direction=record.direction,
         seed=record.seed, created_at=record.created_at,
         first_start=min((ln.started_at for ln in launches), default=None),
         last_activity=max((ln.heartbeat_at for ln in launches), default=None), launches=len(launches),
