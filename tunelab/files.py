@@ -16,7 +16,7 @@ from pathlib import Path
 from tunelab.errors import InputError
 
 
-def write_atomically(path: Path, write: Callable[[Path], None], what: str = "file") -> None:
+def write_atomically(path: Path, write: Callable[[Path], object], what: str = "file") -> None:
     """Call ``write(tmp)`` on a temporary path beside ``path``, then rename it over ``path``.
 
     Raises

@@ -74,7 +74,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
         wall, cpu = st.spent(record.id)
         trials = st.trials(record)
         decisions = decisions_for(st, record, options)
-    counts = {s: 0 for s in TRIAL_STATES}
+    counts: dict[str, int] = {s: 0 for s in TRIAL_STATES}
     points: list[ChartPoint] = []
     families: dict[str, dict[str, Any]] = {  # every family searched, tried or not
         fam: _empty_family() for number in sorted(phases.spaces) for fam in phases.spaces[number].families}

@@ -152,8 +152,8 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         study = open_search_study(store, record, launch_number=0, create=True)
         for source, config in learned.configs:
             study.queue(config, **{keys.WARM_START: True, LEARNED_ATTR: source})
-        for config in space.warm_starts:
-            study.queue(config, **{keys.WARM_START: True})
+        for start in space.warm_starts:
+            study.queue(start, **{keys.WARM_START: True})
         return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
                        clock=clock, announce=announce,
                        on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,

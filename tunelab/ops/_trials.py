@@ -11,7 +11,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from tunelab.engine import settled_config
-from tunelab.space import SpaceSpec
+from tunelab.space import ParamSpec, SpaceSpec
 from tunelab.store import LaunchRecord, PhaseRecord, Store, StudyRecord, TrialRecord, union_length
 
 
@@ -50,9 +50,9 @@ class Phases:
         """Families the current phase dropped."""
         return self.current.dropped
 
-    def distributions(self) -> dict[str, Any]:
+    def distributions(self) -> dict[str, ParamSpec]:
         """Every parameter searched in any phase, by name (the earliest, widest phase wins)."""
-        out: dict[str, Any] = {}
+        out: dict[str, ParamSpec] = {}
         for number in sorted(self.spaces):
             for key, spec in self.spaces[number].searched().items():
                 out.setdefault(key, spec)

@@ -10,7 +10,7 @@ family out for this data, usually for its cost).
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 from tunelab.space._spec import ParamSpec, SpaceSpec
@@ -37,7 +37,7 @@ def carry_config(space: SpaceSpec, config: Mapping[str, Any]) -> dict[str, Any] 
     return carried
 
 
-def carry_configs(space: SpaceSpec, configs: list[Mapping[str, Any]], limit: int) -> list[dict[str, Any]]:
+def carry_configs(space: SpaceSpec, configs: Sequence[Mapping[str, Any]], limit: int) -> list[dict[str, Any]]:
     """The first ``limit`` configs that carry into ``space``, in order, without repeats."""
     out: list[dict[str, Any]] = []
     seen: set[str] = set()
