@@ -15,7 +15,7 @@ import signal
 import traceback
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import Any, Literal, TypedDict
 
 from tunelab.engine._clock import Clock
 from tunelab.engine._objective import Objective, PruneSignal, TrialResult
@@ -25,6 +25,13 @@ OutcomeKind = Literal["complete", "pruned", "failed", "timeout"]
 ShouldPrune = Callable[[int, float], bool]
 _POLL_SECONDS = 0.1
 _CLOCK_TICKS = os.sysconf("SC_CLK_TCK") if hasattr(os, "sysconf") else 100
+
+
+class _LastReport(TypedDict):
+    """The last step a trial reported, and its score there."""
+
+    step: int
+    value: float | None
 
 
 @dataclass
@@ -55,7 +62,7 @@ class InProcessRunner:
         self.objective = objective
 
     def run(self, config: Mapping[str, Any], should_prune: ShouldPrune, limits: Limits, clock: Clock) -> Outcome:
-        state = {"step": 0, "value": None}
+        state: _LastReport = {"step": 0, "value": None}
         cpu0 = _own_cpu()
 
         def report(step: int, value: float) -> None:
@@ -77,7 +84,7 @@ class InProcessRunner:
             raise
         except Exception as exc:  # a failing config must not end the search
             result, kind, error = None, "failed", _error_text(exc)
-        return Outcome(kind, result, error, int(state["step"]), state["value"], _own_cpu() - cpu0)  # type: ignore[arg-type]
+        return Outcome(kind, result, error, int(state["step"]), state["value"], _own_cpu() - cpu0)
 
     def close(self) -> None:
         return None

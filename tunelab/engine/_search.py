@@ -378,6 +378,7 @@ def _fill_best(summary: SearchSummary, study: SearchStudy) -> None:
         best = study.study.best_trial
     except ValueError:
         return
+    assert best.value is not None  # optuna's best trial is a complete one
     summary.best_value, summary.best_trial = float(best.value), best.number
 
 

@@ -589,7 +589,8 @@ def _row(name: str, group: _Group, stat: _Stat | None, best_value: Any, clear_be
     measurable_reach = max(tolerance, floor.reach)
     if (high < th.negligible_share and stat.reach <= measurable_reach and n >= th.absence_trials
             and floor.powered(measurable_reach)):
-        size, seen = floor.planted  # type: ignore[misc]
+        assert floor.planted is not None  # powered() says so
+        size, seen = floor.planted
         return make("no measurable effect", "no measurable effect",
                     f"importance at most {high:.3f} < {th.negligible_share:g}; it moves a trial's score by "
                     f"{stat.reach:.3g}, no more than a knob doing nothing ({measurable_reach:.3g}), while a planted "
