@@ -4,7 +4,7 @@ VENV   ?= .venv
 BIN     = $(VENV)/bin
 STAMP   = $(VENV)/.installed
 
-.PHONY: install demo test test-fast clean
+.PHONY: install demo lint test test-fast clean
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -19,11 +19,16 @@ install: $(STAMP)
 demo: $(STAMP)
 	$(BIN)/python studies/run_demo.py
 
-test: $(STAMP)
+# ruff and mypy (configured in pyproject.toml) run before the tests: a lint failure fails `make test`.
+lint: $(STAMP)
+	$(BIN)/ruff check tunelab tests benchmarks studies
+	$(BIN)/mypy
+
+test: lint
 	$(BIN)/python -m pytest -q -p no:cacheprovider
 
-test-fast: $(STAMP)
+test-fast: lint
 	$(BIN)/python -m pytest -q -m "not slow"
 
 clean:
-	rm -rf $(VENV) studies/*.csv studies/*.db* studies/*.zip studies/*.html
+	rm -rf $(VENV) .mypy_cache .ruff_cache studies/*.csv studies/*.db* studies/*.zip studies/*.html

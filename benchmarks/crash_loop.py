@@ -23,9 +23,9 @@ import random
 import sys
 import tempfile
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
 
 TESTS = Path(__file__).resolve().parents[1] / "tests"
 if str(TESTS) not in sys.path:  # the harness and the data maker live with the tests

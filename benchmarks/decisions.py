@@ -40,12 +40,12 @@ from typing import Any
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-import numpy as np  # noqa: E402
+import numpy as np
 
-from benchmarks import datasets  # noqa: E402
-from benchmarks._results import write_results  # noqa: E402
-from benchmarks._scoring import PRIMARY_METRIC, orient, score_prediction_file  # noqa: E402
-from benchmarks._tunelab_cli import default_executable  # noqa: E402
+from benchmarks import datasets
+from benchmarks._results import write_results
+from benchmarks._scoring import PRIMARY_METRIC, orient, score_prediction_file
+from benchmarks._tunelab_cli import default_executable
 
 DEFAULT_DATASETS = "breast_cancer,titanic,credit,digits,chile,hpc,wage,diamonds"
 HALF = "2m30s"  # each half of a 5-minute study

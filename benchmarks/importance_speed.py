@@ -3,8 +3,8 @@
 The search space has the shape of tunelab's generic space: a ``family`` choice among four model
 families, two shared ``prep.*`` parameters, and 2-6 conditional parameters per family. Scores
 are a synthetic AUC-like response (a few strong knobs, a few weak ones, noise), so the forests
-grow as they would on a real study. The CPU time is what the wall time would be on an otherwise idle machine (the work is
-single-threaded); on a shared machine the wall time can be several times larger. Run from the
+grow as they would on a real study. The CPU time is what the wall time would be on an otherwise idle machine
+(the work is single-threaded); on a shared machine the wall time can be several times larger. Run from the
 repository root::
 
     python benchmarks/importance_speed.py              # fANOVA, 500 and 2,000 trials

@@ -147,12 +147,14 @@ def report(rows: list[dict[str, Any]]) -> dict[str, Any]:
     wins = cv_wins = 0
     for row in pooled:
         c, lr = row["arms"]["cold"], row["arms"]["learned"]
-        gain, cv_gain = _gain(row["metric"], lr["score"], c["score"]), _gain(row["metric"], lr["cv_score"], c["cv_score"])
+        gain = _gain(row["metric"], lr["score"], c["score"])
+        cv_gain = _gain(row["metric"], lr["cv_score"], c["cv_score"])
         wins += gain is not None and gain > 0
         cv_wins += cv_gain is not None and cv_gain > 0
         fmt = (lambda v: "—" if v is None else f"{v:10.4f}")
         print(f"{row['dataset']:14s} {row['metric']:8s} {fmt(c['score'])} {fmt(lr['score'])} "
-              f"{'—' if gain is None else f'{100 * gain:+.2f}':>7s} {'—' if cv_gain is None else f'{100 * cv_gain:+.2f}':>9s} "
+              f"{'—' if gain is None else f'{100 * gain:+.2f}':>7s} "
+              f"{'—' if cv_gain is None else f'{100 * cv_gain:+.2f}':>9s} "
               f"{lr['carried']:7.1f} {str(lr['best_carried']) + ' of ' + str(row['seeds']):>16s}")
     print(f"\nlearned start better on test: {wins} of {len(pooled)}; better best CV: {cv_wins} of {len(pooled)}")
     return {"datasets": len(pooled), "learned_wins": wins, "learned_better_cv": cv_wins, "seeds": seeds}

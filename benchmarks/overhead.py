@@ -38,9 +38,10 @@ import statistics
 import sys
 import tempfile
 import time
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable, Mapping
+from typing import Any
 
 if __package__ in (None, ""):  # run as a script: make `benchmarks` importable
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))

@@ -42,11 +42,11 @@ from typing import Any
 if __package__ in (None, ""):  # run as a script: make `benchmarks` importable
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-import pandas as pd  # noqa: E402
+import pandas as pd
 
-from benchmarks import datasets  # noqa: E402
-from benchmarks._scoring import PRIMARY_METRIC, orient, score_predictions  # noqa: E402
-from benchmarks._tunelab_cli import CommandFailed, _run, default_executable, read_predictions  # noqa: E402
+from benchmarks import datasets
+from benchmarks._scoring import PRIMARY_METRIC, orient, score_predictions
+from benchmarks._tunelab_cli import CommandFailed, _run, default_executable, read_predictions
 
 DEFAULT_DATASETS = ["credit", "default", "wvs", "hpc", "wage", "diamonds"]
 RESULTS_DIR = Path(__file__).resolve().parent / "results"
@@ -135,7 +135,7 @@ def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
             for r in pair.values():
                 groups.setdefault((r["dataset"], r["pruning"]), []).append(r)
     pooled = []
-    for (name, pruning), group in groups.items():
+    for group in groups.values():
         counts: dict[str, int] = {}
         for r in group:
             for key, value in r["counts"].items():

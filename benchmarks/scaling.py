@@ -78,11 +78,11 @@ import time
 import traceback
 import uuid
 from collections import Counter
-from collections.abc import Iterator, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from contextlib import contextmanager
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 if __package__ in (None, ""):  # run as a script: make `benchmarks` importable
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
@@ -565,7 +565,8 @@ def run_plain_point(backend: str, jobs: int, budget: float, sleep_seconds: float
 
 
 def print_file_table(rows: list[dict[str, Any]], backends: list[str], jobs: list[int]) -> str:
-    """Workers down the side; per backend: trials per minute, ratio to one worker, errors, 'locked'; then the verdict."""
+    """Workers down the side; per backend: trials per minute, ratio to one worker, errors, 'locked'; then the
+    verdict."""
     by = {(r["store"], r["workers"]): r for r in rows}
     head = f"{'workers':>7}"
     for b in backends:

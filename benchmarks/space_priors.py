@@ -170,7 +170,8 @@ def summarise(rows: list[dict[str, Any]]) -> dict[str, Any]:
         gain = _relative_gain(metric, scores["built"], scores["fixed"])
         row["relative_gain"] = gain
         cv = {arm: row["arms"][arm].get("cv_score") for arm in ARMS}
-        if cv["built"] is not None and cv["fixed"] is not None and orient(metric, cv["built"]) > orient(metric, cv["fixed"]):
+        if (cv["built"] is not None and cv["fixed"] is not None
+                and orient(metric, cv["built"]) > orient(metric, cv["fixed"])):
             cv_wins += 1
         if gain is None and scores["built"] is None or gain is not None and gain < -LOSS_TOLERANCE:
             losses_beyond += 1

@@ -20,7 +20,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from benchmarks._tunelab_cli import default_executable  # noqa: E402
+from benchmarks._tunelab_cli import default_executable
 
 
 def _sleeping_trial(config: dict[str, object], report: object) -> object:

@@ -27,20 +27,20 @@ from typing import Any
 if __package__ in (None, ""):  # run as a script: make `benchmarks` importable
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-import optuna  # noqa: E402
-import pandas as pd  # noqa: E402
+import optuna
+import pandas as pd
 
-from benchmarks import datasets  # noqa: E402
-from benchmarks._baselines import (  # noqa: E402
+from benchmarks import datasets
+from benchmarks._baselines import (
     default_method,
     random_sampler,
     search_method,
     tpe_sampler,
 )
-from benchmarks._runner import Method, run_suite  # noqa: E402
-from benchmarks._scoring import orient  # noqa: E402
-from benchmarks._summary import friedman_p_value, method_summary  # noqa: E402
-from benchmarks._tunelab_cli import tunelab_method  # noqa: E402
+from benchmarks._runner import Method, run_suite
+from benchmarks._scoring import orient
+from benchmarks._summary import friedman_p_value, method_summary
+from benchmarks._tunelab_cli import tunelab_method
 
 DEFAULT_METHODS = ["hgb_default", "rf_default", "linear_default"]
 RESULTS_DIR = Path(__file__).resolve().parent / "results"

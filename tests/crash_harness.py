@@ -63,7 +63,8 @@ def _trials(store: Path, state: str) -> set[int]:
 
 
 def _owned_running(store: Path) -> set[int]:
-    """Running trials that carry their launch (a trial is underway once it does), or nothing while a writer holds the store."""
+    """Running trials that carry their launch (a trial is underway once it does), or nothing while a writer holds
+    the store."""
     try:
         return {r[0] for r in _query(
             store, "select t.number from trials t join trial_user_attributes a on a.trial_id = t.trial_id "

@@ -304,7 +304,8 @@ BAD_INPUTS = {
     ],
     "bad duration": [
         (["run", "{data}", "--target", "y", "--budget", "soon", "--store", "{store}"], "cannot read budget"),
-        (["run", "{data}", "--target", "y", "--budget", "5s", "--cpu-budget", "-1m", "--store", "{store}"], "--cpu-budget"),
+        (["run", "{data}", "--target", "y", "--budget", "5s", "--cpu-budget", "-1m", "--store", "{store}"],
+         "--cpu-budget"),
         (["resume", "first", "--extend", "later", "--store", "{store}"], "cannot read --extend"),
         (["profile", "{data}", "--target", "y", "--budget", "0"], "budget"),
         (["status", "first", "--horizon", "forever", "--store", "{store}"], "cannot read --horizon"),

@@ -18,8 +18,8 @@ from threadpoolctl import threadpool_limits
 from conftest import small_frame
 from tunelab.data import load_dataset
 from tunelab.engine import METRICS, ROUNDS_ATTR, CrossValidationObjective, settled_config
-from tunelab.evaluation import score
 from tunelab.engine._objective import _HeldOut, _stop_on_held_out, chunk_ends, early_stop_patience, fit_in_parts
+from tunelab.evaluation import score
 from tunelab.models import build_pipeline
 from tunelab.models._model_file import read_meta
 from tunelab.space import FamilySpec, SpaceSpec, fixed

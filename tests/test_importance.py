@@ -8,6 +8,7 @@ import math
 import numpy as np
 import optuna
 import pytest
+
 import tunelab.insight
 from tunelab.errors import InputError
 from tunelab.insight import ImportanceReport, Thresholds, TrialRecord, importance_table

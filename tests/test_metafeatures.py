@@ -20,9 +20,9 @@ import pandas as pd
 import pytest
 from sklearn import datasets
 
+from tunelab.errors import InputError
 from tunelab.facts import MetaFeatures, compute_metafeatures
 from tunelab.probes import COST_FAMILIES, LANDMARKERS, scaled_cost
-from tunelab.errors import InputError
 
 SEED = 0
 BUNDLED = ("iris", "wine", "breast_cancer")

@@ -11,7 +11,8 @@ from package_graph import OPTUNA_ALLOWED, cycles, import_edges, optuna_importers
 
 
 def test_optuna_is_imported_only_by_the_store_the_engine_the_importance_adapter_and_the_space_spec():
-    outside = [f"{module} (line {line})" for module, line in optuna_importers() if not module.startswith(OPTUNA_ALLOWED)]
+    outside = [f"{module} (line {line})" for module, line in optuna_importers()
+               if not module.startswith(OPTUNA_ALLOWED)]
     assert outside == [], "optuna imported outside its places: " + ", ".join(outside)
 
 

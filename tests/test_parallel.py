@@ -12,7 +12,6 @@ import subprocess
 import sys
 import time
 import uuid
-from pathlib import Path
 
 import optuna
 import pytest
@@ -90,7 +89,8 @@ def test_four_workers_share_a_study_and_survive_one_being_killed(tmp_path, store
     small_frame(3000).to_csv(data, index=False)  # trials of a few seconds: a kill lands mid-trial
     env = {**os.environ, "TUNELAB_STORE": store_url}
     main = subprocess.Popen(TUNELAB + ["run", str(data), "--target", "y", "--budget", "75s", "--study", "shared",
-                                       "--pruning", "off", "-q"], env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+                                       "--pruning", "off", "-q"], env=env, stdout=subprocess.DEVNULL,
+                            stderr=subprocess.PIPE)
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline and not _study_exists(store_url):
         time.sleep(0.2)
@@ -181,7 +181,6 @@ def test_the_schema_is_created_the_same_on_postgres_and_sqlite(pg_url, tmp_path)
 @pytest.mark.parametrize("store_kind", ["sqlite", pytest.param("postgres", marks=pytest.mark.postgres)])
 def test_a_report_reads_a_study_the_same_from_postgres_and_sqlite(store_kind, tmp_path, request):
     from test_report import make_study
-
     from tunelab.engine import FakeClock
     from tunelab.ops import write_report
 

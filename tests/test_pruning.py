@@ -30,10 +30,10 @@ from tunelab.engine import (
     make_pruner,
     settled_config,
 )
-from tunelab.evaluation import score
 from tunelab.engine._objective import _epoch_reporter
 from tunelab.engine._pruning import MARGIN_SE, MedianPruner, RungPruner, choose_pruning, fold_noise
 from tunelab.errors import InputError
+from tunelab.evaluation import score
 from tunelab.models import build_pipeline
 from tunelab.ops import list_studies, run_objective_study
 from tunelab.space import FamilySpec, ParamSpec, SpaceSpec

@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import re
-from html import escape as html_escape
 import xml.etree.ElementTree as ET
+from html import escape as html_escape
 from pathlib import Path
 
 import optuna
@@ -13,7 +13,13 @@ import pytest
 from conftest import digest
 from tunelab.engine import Budget, FakeClock, SearchSettings, TrialResult, trial_state
 from tunelab.insight import ChartPoint, best_so_far, nice_ticks, trial_chart, value_window
-from tunelab.ops import create_objective_study, default_report_path, freeze_parameters, run_objective_study, write_report
+from tunelab.ops import (
+    create_objective_study,
+    default_report_path,
+    freeze_parameters,
+    run_objective_study,
+    write_report,
+)
 from tunelab.space import FamilySpec, ParamSpec, SpaceSpec
 
 
@@ -23,7 +29,8 @@ def family_space(reason: str = "a wide range on purpose") -> SpaceSpec:
         families={
             "a": FamilySpec({"strong": ParamSpec("float", low=0, high=1, reason=reason),
                              "idle": ParamSpec("float", low=0, high=1)}, reason="cheap and smooth"),
-            "b": FamilySpec({"k": ParamSpec("int", low=1, high=10, reason="few neighbours")}, reason="a different bias"),
+            "b": FamilySpec({"k": ParamSpec("int", low=1, high=10, reason="few neighbours")},
+                            reason="a different bias"),
         },
         family_reason="both families fit the budget",
         notes=("a note about the data",),

@@ -7,7 +7,7 @@ import math
 import optuna
 import pytest
 
-from tunelab.engine import Budget, FakeClock, InProcessRunner, SearchSettings, TrialResult
+from tunelab.engine import Budget, FakeClock, SearchSettings, TrialResult
 from tunelab.ops import run_objective_study
 from tunelab.space import ParamSpec, SpaceSpec
 from tunelab.store import Store

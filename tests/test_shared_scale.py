@@ -15,8 +15,8 @@ import pytest
 from sklearn import datasets as skdata
 
 from tunelab.data import prepare_frame
-from tunelab.facts import compute_metafeatures, data_facts
 from tunelab.data._shared_scale import SHARED_SCALE_MIN_COLUMNS, shares_one_scale
+from tunelab.facts import compute_metafeatures, data_facts
 from tunelab.models import FAMILY_NAMES, build_pipeline
 from tunelab.models._preprocess import PooledScaler
 from tunelab.probes import SCALING_RULES, CostProbe, numeric_map_choices

@@ -11,8 +11,9 @@ import dataclasses
 import json
 import math
 import warnings
+from collections.abc import Mapping
 from functools import cache
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 import optuna
@@ -407,7 +408,8 @@ def test_log_numeric_transform_tames_a_long_tail() -> None:
 def test_every_family_and_parameter_has_a_one_line_reason() -> None:
     dataset = _mixed_dataset()
     meta = compute_metafeatures(dataset.X, dataset.y, dataset.task, dataset.roles, max_rows=600, probe_rows=100)
-    for space in (build_space(data_facts(dataset, _with_costs(meta, CHEAP)), budget_seconds=100_000.0), _space("imbalanced")):
+    for space in (build_space(data_facts(dataset, _with_costs(meta, CHEAP)), budget_seconds=100_000.0),
+                  _space("imbalanced")):
         assert space.family_reason
         for name, family in space.families.items():
             assert family.reason and "\n" not in family.reason, name

@@ -39,7 +39,8 @@ def test_plain_scaling_score_matches_scikit_learn_on_the_same_folds() -> None:
     X, y = dataset.X.iloc[rows].to_numpy(), dataset.y[rows]
     reference = []
     for train, test in make_folds(y, "binary", 3, 3):
-        model = make_pipeline(StandardScaler(), LogisticRegression(max_iter=300, random_state=3)).fit(X[train], y[train])
+        model = make_pipeline(StandardScaler(), LogisticRegression(max_iter=300, random_state=3))
+        model.fit(X[train], y[train])
         reference.append(roc_auc_score(y[test] == model.classes_[1], model.predict_proba(X[test])[:, 1]))
     assert probe.scores["standard"] == pytest.approx(np.mean(reference), abs=1e-9)
 

@@ -7,7 +7,7 @@ import os
 import sys
 from typing import Any
 
-from rich.console import Console
+from rich.console import Console, JustifyMethod
 from rich.progress import BarColumn, Progress as Bar, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
@@ -61,7 +61,7 @@ class LiveProgress:
         line = (f"of {format_duration(p.box_seconds) if p.box_seconds else '-'} · trials {p.trials} "
                 f"({c.get('pruned', 0)} pruned, {c.get('failed', 0)} failed) · best {self.metric} {fmt(p.best)}")
         completed = None if self.by_time else p.trials
-        self.bar.update(self.task, line=line, **({"completed": completed} if completed is not None else {}))
+        self.bar.update(self.task, line=line, completed=completed)  # None leaves the bar's count as it is
 
     def tick(self, elapsed: float) -> None:
         if self.bar is not None and self.by_time:
@@ -95,11 +95,15 @@ def _budget(spent: float, box: float | None, trials_cap: int | None) -> str:
     return text + (f" · cap {trials_cap} trials" if trials_cap else "")
 
 
+def _add_columns(table: Table, *columns: tuple[str, JustifyMethod]) -> None:
+    for name, justify in columns:
+        table.add_column(name, justify=justify)
+
+
 def study_list_table(lines: list[Any]) -> Table:
     table = Table(show_header=True, header_style="bold", title_justify="left")
-    for name, justify in (("study", "left"), ("task", "left"), ("metric", "left"), ("best", "right"),
-                          ("trials", "left"), ("time used", "right"), ("last activity (UTC)", "left")):
-        table.add_column(name, justify=justify)  # type: ignore[arg-type]
+    _add_columns(table, ("study", "left"), ("task", "left"), ("metric", "left"), ("best", "right"),
+                 ("trials", "left"), ("time used", "right"), ("last activity (UTC)", "left"))
     for line in lines:
         table.add_row(line.name, line.task, line.metric, fmt(line.best), _counts(line.counts),
                       _budget(line.wall_spent, line.wall_budget, line.trials_budget), line.last_activity[:19])
@@ -130,9 +134,8 @@ def print_detail(d: Any) -> None:
         out.print("best: no finished trial yet")
     if d.top:
         table = Table(title=f"top {len(d.top)} trials", title_justify="left", header_style="bold")
-        for name, justify in (("trial", "right"), (line.metric, "right"), ("± folds", "right"),
-                              ("family", "left"), ("seconds", "right"), ("origin", "left")):
-            table.add_column(name, justify=justify)  # type: ignore[arg-type]
+        _add_columns(table, ("trial", "right"), (line.metric, "right"), ("± folds", "right"),
+                     ("family", "left"), ("seconds", "right"), ("origin", "left"))
         for t in d.top:
             table.add_row(str(t.number), fmt(t.value), fmt(t.fold_std), t.family, fmt(t.duration, 1), t.origin)
         out.print(table)
@@ -161,9 +164,8 @@ def print_detail(d: Any) -> None:
 def family_table(verdicts: Any, metric: str) -> Table:
     """One row per model family: its decision and why."""
     table = Table(title="model families", title_justify="left", header_style="bold")
-    for name, justify in (("family", "left"), ("decision", "left"), (f"behind the leader ({metric})", "right"),
-                          ("why", "left")):
-        table.add_column(name, justify=justify)  # type: ignore[arg-type]
+    _add_columns(table, ("family", "left"), ("decision", "left"), (f"behind the leader ({metric})", "right"),
+                 ("why", "left"))
     for v in verdicts:
         style = {"drop": "dim", "leads": "bold"}.get(v.action, "")
         table.add_row(v.family, v.verdict, fmt(v.gap), v.reason, style=style)
@@ -179,10 +181,9 @@ def print_importance(record: Any, decisions: Any) -> None:
     else:
         table = Table(title=f"what mattered in {record.name} ({record.metric}, {report.method})",
                       title_justify="left", header_style="bold")
-        for name, justify in (("parameter", "left"), ("judged in", "left"), ("share", "right"),
-                              ("80% interval", "right"), ("moves score by", "right"), ("best value", "right"),
-                              ("verdict", "left")):
-            table.add_column(name, justify=justify)  # type: ignore[arg-type]
+        _add_columns(table, ("parameter", "left"), ("judged in", "left"), ("share", "right"),
+                     ("80% interval", "right"), ("moves score by", "right"), ("best value", "right"),
+                     ("verdict", "left"))
         for row in report.rows:
             interval = "-" if row.low is None else f"{row.low:.2f}–{row.high:.2f}"
             best = row.best_value
@@ -199,7 +200,8 @@ def print_importance(record: Any, decisions: Any) -> None:
     out.print(f"outlook: {decisions.forecast_line()}")
     firm = decisions.firm()
     if firm:
-        out.print(f"act on it: tunelab freeze {record.name} --auto   ({len(firm)} decision{'s' if len(firm) > 1 else ''})")
+        out.print(f"act on it: tunelab freeze {record.name} --auto   "
+                  f"({len(firm)} decision{'s' if len(firm) > 1 else ''})")
 
 
 def print_first_look(study: str, decisions: Any) -> None:
@@ -231,9 +233,8 @@ def print_profile(report: Any) -> None:
     for note in report.notes:
         out.print(f"note: {note}")
     table = Table(title="columns", title_justify="left", header_style="bold")
-    for name, justify in (("column", "left"), ("role", "left"), ("distinct", "right"), ("missing", "right"),
-                          ("treatment", "left")):
-        table.add_column(name, justify=justify)  # type: ignore[arg-type]
+    _add_columns(table, ("column", "left"), ("role", "left"), ("distinct", "right"), ("missing", "right"),
+                 ("treatment", "left"))
     for c in report.columns:
         role = c.role + (f" ({c.mean_tokens:.1f} words)" if c.mean_tokens else "")
         table.add_row(c.name, role, str(c.n_unique), f"{c.missing_share:.0%}", c.treatment)

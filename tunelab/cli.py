@@ -5,16 +5,18 @@ This is the only module that imports typer and rich.
 
 from __future__ import annotations
 
-import os
 import sys
 import threading
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, List, Optional
+from typing import TYPE_CHECKING, Any, Protocol, TypeGuard
 
 import typer
 
 from tunelab.errors import TunelabError
+
+if TYPE_CHECKING:
+    from tunelab.ops import RunResult
 
 app = typer.Typer(
     name="tunelab",
@@ -67,7 +69,7 @@ def _root(ctx: typer.Context,
     ctx.obj.debug = debug
 
 
-def _search_output(result: Any, json_out: bool) -> int:
+def _search_output(result: RunResult, json_out: bool) -> int:
     from tunelab import _render as r
 
     s = result.summary
@@ -148,32 +150,32 @@ def run(
     ctx: typer.Context,
     data: Path = typer.Argument(..., help="CSV (any common delimiter, UTF-8) or Parquet file."),
     target: str = typer.Option(..., "--target", "-t", help="Column to predict."),
-    budget: Optional[str] = typer.Option(None, "--budget", "-b",
-                                         help="Total wall-clock time, e.g. 90s, 10m, 2h (summed over every launch). "
-                                              "[default: 10m unless --trials is given]"),
-    cpu_budget: Optional[str] = typer.Option(None, "--cpu-budget", help="Cap on CPU time over all processes, e.g. 20m."),
-    trials: Optional[int] = typer.Option(None, "--trials", help="Cap on the number of finished trials."),
-    metric: Optional[str] = typer.Option(None, "--metric", "-m",
-                                         help="roc_auc, accuracy, log_loss (classification); rmse, mae, r2 "
-                                              "(regression). [default: roc_auc binary, log_loss multiclass, rmse]"),
-    task: Optional[str] = typer.Option(None, "--task", help="binary, multiclass or regression. [default: inferred]"),
-    study: Optional[str] = typer.Option(None, "--study", "-s", help="Study name. [default: the data file's name]"),
-    space: Optional[Path] = typer.Option(None, "--space", help="Search space JSON to use instead of the built one."),
+    budget: str | None = typer.Option(None, "--budget", "-b",
+                                      help="Total wall-clock time, e.g. 90s, 10m, 2h (summed over every launch). "
+                                           "[default: 10m unless --trials is given]"),
+    cpu_budget: str | None = typer.Option(None, "--cpu-budget", help="Cap on CPU time over all processes, e.g. 20m."),
+    trials: int | None = typer.Option(None, "--trials", help="Cap on the number of finished trials."),
+    metric: str | None = typer.Option(None, "--metric", "-m",
+                                      help="roc_auc, accuracy, log_loss (classification); rmse, mae, r2 "
+                                           "(regression). [default: roc_auc binary, log_loss multiclass, rmse]"),
+    task: str | None = typer.Option(None, "--task", help="binary, multiclass or regression. [default: inferred]"),
+    study: str | None = typer.Option(None, "--study", "-s", help="Study name. [default: the data file's name]"),
+    space: Path | None = typer.Option(None, "--space", help="Search space JSON to use instead of the built one."),
     pruning: str = typer.Option("auto", "--pruning",
                                 help="auto, off, median, halving or hyperband. auto counts the trials the budget "
                                      "should finish: off under 4, successive halving from there."),
     jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
-    learn: Optional[List[str]] = typer.Option(None, "--learn-from", metavar="STUDY",
-                                              help="An earlier study in the same store (same kind of task): its "
-                                                   "best 3 configurations run first, moved into this data's ranges. "
-                                                   "Repeat to learn from several."),
+    learn: list[str] | None = typer.Option(None, "--learn-from", metavar="STUDY",
+                                           help="An earlier study in the same store (same kind of task): its "
+                                                "best 3 configurations run first, moved into this data's ranges. "
+                                                "Repeat to learn from several."),
     nearest: int = typer.Option(0, "--learn-nearest", metavar="K", min=0,
                                 help="Also learn from the K earlier studies in the store (same kind of task) whose "
                                      "data looks most alike by meta-features; their best configurations run first."),
     seed: int = SeedOpt,
     horizon: str = HorizonOpt,
-    worth: Optional[str] = WorthOpt,
-    store: Optional[str] = StoreOpt,
+    worth: str | None = WorthOpt,
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
     quiet: bool = QuietOpt,
 ) -> None:
@@ -209,15 +211,15 @@ def run(
 def resume(
     ctx: typer.Context,
     study: str = typer.Argument(..., help="Name of the study to continue."),
-    extend: Optional[str] = typer.Option(None, "--extend", help="Add this much time to the study's budget, e.g. 10m."),
+    extend: str | None = typer.Option(None, "--extend", help="Add this much time to the study's budget, e.g. 10m."),
     more_trials: int = typer.Option(0, "--more-trials", help="Add this many trials to the study's trial cap."),
-    data: Optional[Path] = typer.Option(None, "--data", help="The data file's new place, if it moved."),
+    data: Path | None = typer.Option(None, "--data", help="The data file's new place, if it moved."),
     accept_changed_data: bool = typer.Option(False, "--accept-changed-data",
                                              help="Continue even though the data file's bytes changed."),
     jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
     horizon: str = HorizonOpt,
-    worth: Optional[str] = WorthOpt,
-    store: Optional[str] = StoreOpt,
+    worth: str | None = WorthOpt,
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
     quiet: bool = QuietOpt,
 ) -> None:
@@ -245,9 +247,9 @@ def resume(
 def worker(
     ctx: typer.Context,
     study: str = typer.Argument(..., help="Name of a study to join (it must exist in the store)."),
-    data: Optional[Path] = typer.Option(None, "--data", help="Where the study's data file is on this machine."),
+    data: Path | None = typer.Option(None, "--data", help="Where the study's data file is on this machine."),
     jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes to start on this machine."),
-    store: Optional[str] = StoreOpt,
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
     quiet: bool = QuietOpt,
 ) -> None:
@@ -270,11 +272,11 @@ def worker(
 
 @app.command()
 def status(
-    study: Optional[str] = typer.Argument(None, help="A study to show in detail; omit to list every study."),
+    study: str | None = typer.Argument(None, help="A study to show in detail; omit to list every study."),
     top: int = typer.Option(5, "--top", help="How many of the best trials to show."),
     horizon: str = HorizonOpt,
-    worth: Optional[str] = WorthOpt,
-    store: Optional[str] = StoreOpt,
+    worth: str | None = WorthOpt,
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
     """List the studies in a store, or show one: best config, score ± fold spread, top trials, budget,
@@ -302,8 +304,8 @@ def status(
 def export(
     study: str = typer.Argument(..., help="Study whose best pipeline to ship."),
     out: Path = typer.Option(..., "--out", "-o", help="Model file to write, e.g. model.zip."),
-    trial: Optional[int] = typer.Option(None, "--trial", help="Export this trial instead of the best one."),
-    store: Optional[str] = StoreOpt,
+    trial: int | None = typer.Option(None, "--trial", help="Export this trial instead of the best one."),
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
     """Refit the best pipeline on all rows and write a model file (its sha256 goes into the store).
@@ -345,14 +347,14 @@ def predict(
 def profile(
     data: Path = typer.Argument(..., help="CSV or Parquet file."),
     target: str = typer.Option(..., "--target", "-t", help="Column to predict."),
-    task: Optional[str] = typer.Option(None, "--task", help="binary, multiclass or regression. [default: inferred]"),
-    budget: Optional[str] = typer.Option(None, "--budget", "-b", help="Plan the search space for this budget, e.g. 10m."),
-    metric: Optional[str] = typer.Option(None, "--metric", "-m",
-                                         help="Plan for this metric, as run --metric would score. [default: the task's]"),
-    write_space: Optional[Path] = typer.Option(None, "--write-space", help="Write the search space JSON here "
-                                                                             "(edit it, then pass it to run --space)."),
+    task: str | None = typer.Option(None, "--task", help="binary, multiclass or regression. [default: inferred]"),
+    budget: str | None = typer.Option(None, "--budget", "-b", help="Plan the search space for this budget, e.g. 10m."),
+    metric: str | None = typer.Option(None, "--metric", "-m",
+                                      help="Plan for this metric, as run --metric would score. [default: the task's]"),
+    write_space: Path | None = typer.Option(None, "--write-space", help="Write the search space JSON here "
+                                                                          "(edit it, then pass it to run --space)."),
     seed: int = SeedOpt,
-    store: Optional[str] = StoreOpt,
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
     """Describe a data file: column roles, meta-features, and the search space `run` would build, with reasons.
@@ -386,14 +388,15 @@ def profile(
 @app.command()
 def importance(
     study: str = typer.Argument(..., help="Study whose finished trials to analyse."),
-    method: str = typer.Option("fanova", "--method", help="fanova (variance shares) or ped-anova (what the top trials share)."),
-    family: Optional[str] = typer.Option(None, "--family", help="Only this model family's parameters and trials."),
-    tolerance: Optional[float] = typer.Option(None, "--tolerance",
-                                              help="Smallest score change that matters, in metric units. "
-                                                   "[default: 0.002 for roc_auc/accuracy/r2, else 2% of the score range]"),
+    method: str = typer.Option("fanova", "--method",
+                               help="fanova (variance shares) or ped-anova (what the top trials share)."),
+    family: str | None = typer.Option(None, "--family", help="Only this model family's parameters and trials."),
+    tolerance: float | None = typer.Option(None, "--tolerance",
+                                           help="Smallest score change that matters, in metric units. "
+                                                "[default: 0.002 for roc_auc/accuracy/r2, else 2% of the score range]"),
     horizon: str = HorizonOpt,
-    worth: Optional[str] = WorthOpt,
-    store: Optional[str] = StoreOpt,
+    worth: str | None = WorthOpt,
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
     """What to stop tuning: model families to drop, knobs to freeze or without effect, and whether to go on.
@@ -427,11 +430,11 @@ def importance(
 @app.command()
 def freeze(
     study: str = typer.Argument(..., help="Study to narrow."),
-    assignments: Optional[list[str]] = typer.Argument(None, help="PARAM=VALUE pairs, e.g. hist_gb.max_iter=300."),
+    assignments: list[str] | None = typer.Argument(None, help="PARAM=VALUE pairs, e.g. hist_gb.max_iter=300."),
     auto: bool = typer.Option(False, "--auto", help="Drop the families and freeze the knobs `tunelab importance` "
                                                     "decided: \"drop FAMILY\", \"freeze at VALUE\", "
                                                     "\"no measurable effect\"."),
-    store: Optional[str] = StoreOpt,
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
     """Hold parameters at fixed values from now on: a new phase of the study that `resume` continues.
@@ -462,10 +465,10 @@ def freeze(
 @app.command()
 def report(
     study: str = typer.Argument(..., help="Study to summarise."),
-    out: Optional[Path] = typer.Option(None, "--out", "-o", help="HTML file to write. [default: ./STUDY.report.html]"),
+    out: Path | None = typer.Option(None, "--out", "-o", help="HTML file to write. [default: ./STUDY.report.html]"),
     horizon: str = HorizonOpt,
-    worth: Optional[str] = WorthOpt,
-    store: Optional[str] = StoreOpt,
+    worth: str | None = WorthOpt,
+    store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
     quiet: bool = typer.Option(False, "-q", "--quiet", help="Print only the written file's path."),
 ) -> None:
@@ -494,7 +497,13 @@ def report(
                     "open it in a browser")
 
 
-def _is_usage_error(exc: BaseException) -> bool:
+class _UsageError(Protocol):
+    exit_code: int
+
+    def format_message(self) -> str: ...
+
+
+def _is_usage_error(exc: BaseException) -> TypeGuard[_UsageError]:
     """typer's usage errors (a bad option value, a missing argument) carry exit code 2 and a message."""
     return getattr(exc, "exit_code", None) == EXIT_BAD_INPUT and callable(getattr(exc, "format_message", None))
 
@@ -524,7 +533,7 @@ def main(argv: list[str] | None = None) -> None:
         ctx = getattr(exc, "ctx", None)
         name = getattr(ctx, "info_name", None)
         where = f"tunelab {name}" if name and name != "tunelab" else "tunelab"
-        message = " ".join(exc.format_message().split())  # type: ignore[attr-defined]
+        message = " ".join(exc.format_message().split())
         sys.stderr.write(f"tunelab: error: {message} — see `{where} --help`\n")
         sys.exit(EXIT_BAD_INPUT)
     sys.exit(code if isinstance(code, int) else 0)

@@ -10,13 +10,13 @@ from __future__ import annotations
 import contextlib
 import errno
 import os
+from collections.abc import Callable
 from pathlib import Path
-from typing import Callable
 
 from tunelab.errors import InputError
 
 
-def write_atomically(path: Path, write: Callable[[Path], None], what: str = "file") -> None:
+def write_atomically(path: Path, write: Callable[[Path], object], what: str = "file") -> None:
     """Call ``write(tmp)`` on a temporary path beside ``path``, then rename it over ``path``.
 
     Raises

@@ -10,8 +10,8 @@ Used by the pruner (``tunelab.engine``) and by the decisions (``tunelab.insight`
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
-from typing import Iterable, Sequence
 
 import numpy as np
 

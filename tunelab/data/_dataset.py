@@ -79,7 +79,7 @@ def prepare_frame(frame: pd.DataFrame, target: str, task: str | None = None) -> 
         y_raw = y_raw.where(y_raw.isna() | (y_raw.astype(str).str.strip() != ""))
     if pd.api.types.is_numeric_dtype(y_raw) and not pd.api.types.is_bool_dtype(y_raw):
         y_raw = y_raw.replace([np.inf, -np.inf], np.nan)
-    chosen: Task = task or infer_task(y_raw)  # type: ignore[assignment]
+    chosen: Task = task or infer_task(y_raw)
     check_target(y_raw, target, chosen)
     keep = y_raw.notna().to_numpy()
     if not keep.all():

@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import hashlib
 import io
+from collections import Counter
 from pathlib import Path
 
 import pandas as pd
@@ -98,8 +99,7 @@ def _sniff_delimiter(sample: str) -> str:
 
 
 def _check_unique_columns(names: list[str], path: Path) -> None:
-    seen: set[str] = set()
-    duplicates = sorted({n for n in names if n in seen or seen.add(n)})  # type: ignore[func-returns-value]
+    duplicates = sorted(name for name, count in Counter(names).items() if count > 1)
     if duplicates:
         raise InputError(
             f"{path} has duplicate column names: {', '.join(duplicates)}",

@@ -4,18 +4,37 @@ The engine never prints: it reports progress through callbacks.  Metrics and fol
 :mod:`tunelab.evaluation`, which the probes share; their names are re-exported here.
 """
 
-from tunelab.engine._budget import Budget, Spent, format_duration, overshoot_allowance, parse_duration, remaining
+from tunelab.engine._budget import Budget, Spent, overshoot_allowance, parse_duration, remaining
 from tunelab.engine._clock import Clock, FakeClock, SystemClock
-from tunelab.engine._objective import (ROUNDS_ATTR, STEPS_PER_FOLD, CrossValidationObjective, Objective, PruneSignal,
-                                       Report, TrialResult, fold_scores_from_reports, settled_config)
+from tunelab.engine._objective import (
+    ROUNDS_ATTR,
+    STEPS_PER_FOLD,
+    CrossValidationObjective,
+    Objective,
+    PruneSignal,
+    Report,
+    TrialResult,
+    fold_scores_from_reports,
+    settled_config,
+)
 from tunelab.engine._pruning import PRUNING_CHOICES, choose_pruning, make_pruner
 from tunelab.engine._recovery import Recovery, recover, trial_state
 from tunelab.engine._runner import ForkRunner, InProcessRunner, Limits, Outcome
 from tunelab.engine._search import Progress, SearchSettings, SearchSummary, search
 from tunelab.engine._stop import StopRequested, clear_stop, holding, request_stop
 from tunelab.engine._study import SAMPLERS, SearchStudy, make_sampler, open_search_study
-from tunelab.evaluation import (DEFAULT_METRIC, LARGE_DATA_ROWS, METRICS, Metric, better, fold_count, make_folds,
-                                resolve_metric, score)
+from tunelab.evaluation import (
+    DEFAULT_METRIC,
+    LARGE_DATA_ROWS,
+    METRICS,
+    Metric,
+    better,
+    fold_count,
+    make_folds,
+    resolve_metric,
+    score,
+)
+from tunelab.values import format_duration
 
 __all__ = [
     "DEFAULT_METRIC", "LARGE_DATA_ROWS", "METRICS", "PRUNING_CHOICES", "ROUNDS_ATTR", "SAMPLERS", "STEPS_PER_FOLD",

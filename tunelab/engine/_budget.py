@@ -6,7 +6,6 @@ import re
 from dataclasses import dataclass
 
 from tunelab.errors import BudgetError
-from tunelab.values import format_duration
 
 _UNITS = {"s": 1.0, "m": 60.0, "h": 3600.0, "d": 86400.0}
 _PART = re.compile(r"(\d+(?:\.\d+)?)([smhd])")
@@ -56,7 +55,7 @@ class Budget:
         if self.trials is not None and self.trials <= 0:
             raise BudgetError("--trials must be at least 1", "pass a positive trial count")
 
-    def extended(self, wall_seconds: float = 0.0, trials: int = 0) -> "Budget":
+    def extended(self, wall_seconds: float = 0.0, trials: int = 0) -> Budget:
         """The same box with more time or trials (``resume --extend``)."""
         wall = None if self.wall_seconds is None else self.wall_seconds + wall_seconds
         if self.wall_seconds is None and wall_seconds:

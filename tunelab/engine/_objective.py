@@ -25,8 +25,8 @@ step                        value reported
 
 Families whose fit cannot be cut into parts (linear models, k-NN, SVM) first report at step 3.
 Because step numbers count work, a pruner's rungs placed at steps 1, 3, 6 mean "a third of a
-fold, one fold, two folds" for every family (the default rungs go on after every fold).  How far a third of the training takes a model
-along its learning curve differs between families (a third of a forest's trees is nearly the
+fold, one fold, two folds" for every family (the default rungs go on after every fold).  How far a third of the
+training takes a model along its learning curve differs between families (a third of a forest's trees is nearly the
 whole forest; a third of the boosting rounds is not), so the pruners in ``_pruning.py`` judge
 steps below ``STEPS_PER_FOLD`` only for forests, within their own family; from step 3 on, every value is a fully
 fitted model's held-out score and all families are compared.  The last fold is not reported: the trial is
@@ -39,15 +39,16 @@ from __future__ import annotations
 import math
 import time
 import warnings
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Callable, Iterable, Mapping, Protocol
+from typing import Any, Protocol
 
 import numpy as np
 from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
-from tunelab.store import keys
 from tunelab.evaluation import Metric, better, make_folds, score, score_output
+from tunelab.store import keys
 
 Report = Callable[[int, float], None]
 
@@ -177,7 +178,7 @@ class CrossValidationObjective:
                     warnings.simplefilter("ignore")
                     held_out = _HeldOut(self.metric, y[test], self.dataset.classes)
                     fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, lambda step, value: None)
-            except Exception:  # noqa: BLE001 - only a warm-up
+            except Exception:  # only a warm-up
                 continue
 
     def __call__(self, config: Mapping[str, Any], report: Report) -> TrialResult:
@@ -206,7 +207,8 @@ class CrossValidationObjective:
                 report(fold_step(fold), float(np.mean(scores)))
         extras: dict[str, Any] = {
             keys.FOLD_STD: float(np.std(scores)), keys.FIT_SECONDS: time.perf_counter() - started,
-            keys.FIDELITY: f"{len(scores)}/{len(self.folds)} folds" + (f", {cap} training rows per fold" if cap else ""),
+            keys.FIDELITY: f"{len(scores)}/{len(self.folds)} folds"
+                           + (f", {cap} training rows per fold" if cap else ""),
         }
         if rounds is not None:
             extras[keys.ROUNDS] = rounds

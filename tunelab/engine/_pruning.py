@@ -35,9 +35,8 @@ from __future__ import annotations
 
 import math
 import statistics
-from typing import Callable, Iterable
+from collections.abc import Callable, Iterable
 
-import numpy as np
 import optuna
 from optuna.pruners import BasePruner
 from optuna.trial import FrozenTrial, TrialState

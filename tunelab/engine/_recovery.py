@@ -37,7 +37,8 @@ def recover(store: Store, record: StudyRecord, study: SearchStudy, *, now: float
     here = set(study.running_here())
     for trial in study.frozen(states=(TrialState.RUNNING,)):
         owner = trial.user_attrs.get(keys.LAUNCH)
-        orphan = owner is None and trial.number not in here and (not others_live or _older_than(trial, now, stale_after))
+        orphan = (owner is None and trial.number not in here
+                  and (not others_live or _older_than(trial, now, stale_after)))
         if owner in report.crashed_launches or (owner is not None and owner not in live) or orphan:
             if study.mark_interrupted(trial.number):
                 report.interrupted.append(trial.number)

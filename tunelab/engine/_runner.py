@@ -13,8 +13,9 @@ import multiprocessing as mp
 import os
 import signal
 import traceback
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Callable, Literal, Mapping
+from typing import Any, Literal, TypedDict
 
 from tunelab.engine._clock import Clock
 from tunelab.engine._objective import Objective, PruneSignal, TrialResult
@@ -23,6 +24,13 @@ from tunelab.engine._stop import raise_pending
 OutcomeKind = Literal["complete", "pruned", "failed", "timeout"]
 ShouldPrune = Callable[[int, float], bool]
 _POLL_SECONDS = 0.1
+
+
+class _LastReport(TypedDict):
+    """The last step a trial reported, and its score there."""
+
+    step: int
+    value: float | None
 
 
 @dataclass
@@ -53,7 +61,7 @@ class InProcessRunner:
         self.objective = objective
 
     def run(self, config: Mapping[str, Any], should_prune: ShouldPrune, limits: Limits, clock: Clock) -> Outcome:
-        state = {"step": 0, "value": None}
+        state: _LastReport = {"step": 0, "value": None}
         cpu0 = _own_cpu()
 
         def report(step: int, value: float) -> None:
@@ -75,7 +83,7 @@ class InProcessRunner:
             raise
         except Exception as exc:  # a failing config must not end the search
             result, kind, error = None, "failed", _error_text(exc)
-        return Outcome(kind, result, error, int(state["step"]), state["value"], _own_cpu() - cpu0)  # type: ignore[arg-type]
+        return Outcome(kind, result, error, int(state["step"]), state["value"], _own_cpu() - cpu0)
 
     def close(self) -> None:
         return None
@@ -131,7 +139,8 @@ class ForkRunner:
                 cpu = message[-1]
                 child.join()
                 if tag == "done":
-                    return Outcome("complete", result=message[1], last_step=last_step, last_value=last_value, cpu_seconds=cpu)
+                    return Outcome("complete", result=message[1], last_step=last_step, last_value=last_value,
+                                   cpu_seconds=cpu)
                 if tag == "pruned":
                     return Outcome("pruned", last_step=last_step, last_value=last_value, cpu_seconds=cpu)
                 return Outcome("failed", error=message[1], last_step=last_step, last_value=last_value, cpu_seconds=cpu)

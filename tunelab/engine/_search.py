@@ -10,8 +10,9 @@ import contextlib
 import os
 import statistics
 import threading
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Any
 
 from optuna.exceptions import UpdateFinishedTrialError
 from optuna.trial import TrialState
@@ -25,7 +26,6 @@ from tunelab.engine._stop import StopRequested, clear_stop, hold_stops, raise_pe
 from tunelab.engine._study import SearchStudy
 from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord, keys
-
 
 LOST = "lost"  # the state of a launch another process declared dead
 
@@ -182,7 +182,7 @@ class _Box:
         return self.wall == 0 or self.cpu == 0 or self.trials == 0
 
     @classmethod
-    def left(cls, store: Store, record: StudyRecord, budget: Budget, started: float, now: float) -> "_Box":
+    def left(cls, store: Store, record: StudyRecord, budget: Budget, started: float, now: float) -> _Box:
         # Wall time is the union of launch intervals: this launch counts from its process start, and
         # time other live launches already cover is not counted twice (a joining worker gets their deadline).
         wall_spent, cpu_spent = store.spent(record.id, extra=(started, now))
@@ -401,7 +401,7 @@ def _mark_orphans_interrupted(study: SearchStudy) -> int:
     for number in study.running_here():
         try:
             marked += study.mark_interrupted(number)
-        except Exception:  # noqa: BLE001 - the store is gone: the next launch's recovery handles it
+        except Exception:  # the store is gone: the next launch's recovery handles it
             continue
     return marked
 
@@ -447,6 +447,7 @@ def _fill_best(summary: SearchSummary, study: SearchStudy) -> None:
         best = study.study.best_trial
     except ValueError:
         return
+    assert best.value is not None  # optuna's best trial is a complete one
     summary.best_value, summary.best_trial = float(best.value), best.number
 
 

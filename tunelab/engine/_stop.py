@@ -9,7 +9,7 @@ The search and the trial runner call ``raise_pending()`` at their safe points.
 from __future__ import annotations
 
 import contextlib
-from typing import Iterator
+from collections.abc import Iterator
 
 _pending: list[BaseException] = []
 _held: list[bool] = []

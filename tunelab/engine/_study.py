@@ -9,8 +9,9 @@ from __future__ import annotations
 
 import random
 import warnings
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 import optuna
 from optuna.distributions import BaseDistribution

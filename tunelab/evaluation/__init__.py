@@ -5,8 +5,16 @@ the same way), so that neither has to import the other.
 """
 
 from tunelab.evaluation._folds import LARGE_DATA_ROWS, fold_count, make_folds
-from tunelab.evaluation._metrics import (DEFAULT_METRIC, METRICS, Direction, Metric, better, resolve_metric, score,
-                                         score_output)
+from tunelab.evaluation._metrics import (
+    DEFAULT_METRIC,
+    METRICS,
+    Direction,
+    Metric,
+    better,
+    resolve_metric,
+    score,
+    score_output,
+)
 
 __all__ = ["DEFAULT_METRIC", "Direction", "LARGE_DATA_ROWS", "METRICS", "Metric", "better", "fold_count",
            "make_folds", "resolve_metric", "score", "score_output"]

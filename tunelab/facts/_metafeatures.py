@@ -25,8 +25,16 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from tunelab.data import (InformationFeatures, SimpleFeatures, StatisticalFeatures, Task, describe_data,
-                          design_matrix, learning_target, sample_rows)
+from tunelab.data import (
+    InformationFeatures,
+    SimpleFeatures,
+    StatisticalFeatures,
+    Task,
+    describe_data,
+    design_matrix,
+    learning_target,
+    sample_rows,
+)
 from tunelab.errors import InputError
 from tunelab.probes import CostProbe, Landmarkers, measure_landmarkers, one_thread, probe_costs
 from tunelab.values import plain

@@ -15,7 +15,7 @@ model does relatively well (landmarkers, Pfahringer et al. 2000, as read by Rivo
 from __future__ import annotations
 
 import math
-from typing import Mapping
+from collections.abc import Mapping
 
 from tunelab.facts._metafeatures import MetaFeatures
 from tunelab.probes import LANDMARKERS

@@ -11,6 +11,7 @@ from tunelab.insight._importance import (
     GroupNote,
     ImportanceReport,
     ImportanceRow,
+    Method,
     Thresholds,
     importance_table,
 )
@@ -45,6 +46,7 @@ __all__ = [
     "GroupNote",
     "ImportanceReport",
     "ImportanceRow",
+    "Method",
     "Pace",
     "Reason",
     "ReportData",

@@ -9,8 +9,9 @@ comparable scores with the dropped families' knobs marked, then the stop-or-cont
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Literal, Mapping, Sequence
+from typing import Any, Literal
 
 import numpy as np
 
@@ -144,7 +145,7 @@ def decide(evidence: StudyEvidence, *, method: Method = "fanova", family: str | 
         importance = importance_table(narrowed, evidence.space, direction=evidence.direction, method=method,
                                       family=family, thresholds=thresholds, dropped=dropped, pace=evidence.pace,
                                       seconds=seconds, n_bootstrap=n_bootstrap, seed=seed)
-    finished = [(evidence.finished_at[t.number], float(t.value)) for t in trials  # type: ignore[arg-type]
+    finished = [(evidence.finished_at[t.number], t.score) for t in trials
                 if t.state == "complete" and t.scored and t.number in evidence.finished_at]
     gain_worth = default_worth(trials, evidence.direction) if worth is None else worth
     outlook = forecast(finished, evidence.spent, direction=evidence.direction, horizon=horizon, worth=gain_worth,

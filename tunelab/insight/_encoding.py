@@ -7,8 +7,9 @@ log-scaled range on the log scale, integers and categorical choices as equal-wid
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 
@@ -47,7 +48,7 @@ def internal(name: str, spec: ParamSpec, value: Any, number: int) -> float:
         number_value = float(value)
     except (TypeError, ValueError) as exc:
         raise InputError(f"trial {number}: {name}={value!r} is not in its search space", hint) from exc
-    low, high = float(spec.low), float(spec.high)  # type: ignore[arg-type]
+    low, high = map(float, spec.bounds)
     slack = 1e-9 * (high - low)
     if not low - slack <= number_value <= high + slack:
         raise InputError(f"trial {number}: {name}={value!r} is outside [{spec.low}, {spec.high}]", hint)
@@ -62,7 +63,7 @@ def unit(spec: ParamSpec, values: np.ndarray) -> np.ndarray:
     """
     if spec.kind == "categorical":
         return np.asarray((values + 0.5) / len(spec.choices))
-    low, high = float(spec.low), float(spec.high)  # type: ignore[arg-type]
+    low, high = map(float, spec.bounds)
     if spec.log:
         out = (np.log(values) - math.log(low)) / (math.log(high) - math.log(low))
     elif spec.kind == "int":
@@ -84,7 +85,7 @@ def encode(trials: Sequence[TrialRecord], names: Sequence[str], space: Mapping[s
     for j, name in enumerate(kept):
         values = np.array([internal(name, space[name], t.params[name], t.number) for t in trials])
         matrix[:, j] = unit(space[name], values)
-    return Encoded(kept, matrix, np.array([float(t.value) for t in trials]))  # type: ignore[arg-type]
+    return Encoded(kept, matrix, np.array([t.score for t in trials]))
 
 
 def position(spec: ParamSpec, value: Any) -> float:

@@ -11,7 +11,7 @@ not a score).
 from __future__ import annotations
 
 import dataclasses
-from typing import Sequence
+from collections.abc import Sequence
 
 from tunelab.stats import FoldFit, adjusted_mean, fit_folds
 from tunelab.store import TrialRecord

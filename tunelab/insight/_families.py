@@ -17,8 +17,9 @@ best of many favours the family, so a drop errs on the side of keeping it.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal, Sequence
+from typing import Literal
 
 from tunelab.insight._evidence import comparable, fold_fit
 from tunelab.insight._pace import Pace
@@ -102,7 +103,7 @@ def family_verdicts(trials: Sequence[TrialRecord], families: Sequence[str], *, d
         if not own or leader is None or fit is None:
             out.append(_undecided(family, own, leader, fit is None, trials, reach, pace))
             continue
-        best = max(own, key=lambda t: sign * float(t.value))  # type: ignore[arg-type]
+        best = max(own, key=lambda t: sign * t.score)
         k = min(len(best.fold_scores), len(leader.fold_scores))
         gap = sign * sum(leader.fold_scores[f] - best.fold_scores[f] for f in range(k)) / k
         half = Z80 * fit.paired_se(k)

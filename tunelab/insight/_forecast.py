@@ -22,8 +22,8 @@ interval holds the realised gain) is measured in ``benchmarks/decisions.py``.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Sequence
 
 import numpy as np
 

@@ -507,7 +507,7 @@ def _judge_group(group: _Group, space: Mapping[str, ParamSpec], settings: _Setti
                  seed: int) -> tuple[list[ImportanceRow], GroupNote]:
     th = settings.thresholds
     n = len(group.trials)
-    scores = np.array([float(t.value) for t in group.trials])  # type: ignore[arg-type]
+    scores = np.array([t.score for t in group.trials])
     tolerance = _tolerance(th, scores)
     stats: dict[str, _Stat] = {}
     floor: Floor | None = None
@@ -570,7 +570,6 @@ def _row(name: str, group: _Group, stat: _Stat | None, best_value: Any, clear_be
          tolerance: float, floor: Floor, dropped: bool) -> ImportanceRow:
     th = settings.thresholds
     n = len(group.trials)
-    measurable = max(tolerance, floor.spread)
 
     def make(action: Action, verdict: str, reason: str, needed: int | None = None) -> ImportanceRow:
         if stat is None:
@@ -580,7 +579,8 @@ def _row(name: str, group: _Group, stat: _Stat | None, best_value: Any, clear_be
                              verdict, action, reason, n, needed)
 
     if dropped:
-        return make("family dropped", "family dropped", f"family {group.family} was dropped: its best trails the leader")
+        return make("family dropped", "family dropped",
+                    f"family {group.family} was dropped: its best trails the leader")
     if stat is None:
         more = max(1, th.min_trials - n)
         return make("undecided", "undecided", _undecided_words(more, group.family, settings.pace,
@@ -589,7 +589,8 @@ def _row(name: str, group: _Group, stat: _Stat | None, best_value: Any, clear_be
     measurable_reach = max(tolerance, floor.reach)
     if (high < th.negligible_share and stat.reach <= measurable_reach and n >= th.absence_trials
             and floor.powered(measurable_reach)):
-        size, seen = floor.planted  # type: ignore[misc]
+        assert floor.planted is not None  # powered() says so
+        size, seen = floor.planted
         return make("no measurable effect", "no measurable effect",
                     f"importance at most {high:.3f} < {th.negligible_share:g}; it moves a trial's score by "
                     f"{stat.reach:.3g}, no more than a knob doing nothing ({measurable_reach:.3g}), while a planted "
@@ -603,8 +604,8 @@ def _row(name: str, group: _Group, stat: _Stat | None, best_value: Any, clear_be
                                                   f"score moves {spread:.3g}")
     beyond_chance = max(tolerance, floor.reach)
     if stat.reach > beyond_chance:
-        return make("keep tuning", "keep tuning", f"it moves a trial's score by {stat.reach:.3g}, more than a knob doing "
-                                                  f"nothing ({beyond_chance:.3g}); importance up to {high:.3f}")
+        return make("keep tuning", "keep tuning", f"it moves a trial's score by {stat.reach:.3g}, more than a knob "
+                                                  f"doing nothing ({beyond_chance:.3g}); importance up to {high:.3f}")
     more = _projected(imp, low, high, n, th)
     return make("undecided", "undecided",
                 _undecided_words(more, group.family, settings.pace,

@@ -10,8 +10,9 @@ from __future__ import annotations
 import logging
 import math
 import warnings
+from collections.abc import Iterator, Mapping, Sequence
 from contextlib import contextmanager
-from typing import Iterator, Mapping, Sequence
+from typing import cast
 
 import numpy as np
 
@@ -49,10 +50,10 @@ def fanova_replicates(enc: Encoded, n_bootstrap: int, depth: int, seed: int) -> 
     marginal (optuna's one-hot coding would also weigh impossible combinations and cost 2**k walks).
     """
     import optuna
-    from optuna.distributions import FloatDistribution
+    from optuna.distributions import BaseDistribution, FloatDistribution
     from optuna.importance import FanovaImportanceEvaluator
 
-    dists = {name: FloatDistribution(0.0, 1.0) for name in enc.names}
+    dists: dict[str, BaseDistribution] = {name: FloatDistribution(0.0, 1.0) for name in enc.names}
     x = snap(enc.unit, FANOVA_BINS)
     out = np.zeros((n_bootstrap, len(enc.names)))
     with _quiet_optuna():
@@ -80,9 +81,11 @@ def ped_anova_replicates(trials: Sequence[TrialRecord], names: Sequence[str], sp
     from memory: Efron & Tibshirani 1993, *An Introduction to the Bootstrap*).
     """
     import optuna
+    from optuna.distributions import BaseDistribution
     from optuna.importance import PedAnovaImportanceEvaluator
 
-    dists = {name: space[name].distribution() for name in names}
+    # only searched parameters are judged: none is fixed, so none has no distribution
+    dists = {name: cast(BaseDistribution, space[name].distribution()) for name in names}
     sign = 1.0 if minimize else -1.0  # the evaluator's target is minimised
     n = len(trials)
     evaluator = PedAnovaImportanceEvaluator(target_quantile=top_quantile)
@@ -91,14 +94,15 @@ def ped_anova_replicates(trials: Sequence[TrialRecord], names: Sequence[str], sp
         study = optuna.create_study(direction="minimize")
         study.add_trials([
             optuna.trial.create_trial(params={name: t.params[name] for name in names}, distributions=dists,
-                                      value=sign * float(t.value))  # type: ignore[arg-type]
+                                      value=sign * t.score)
             for t in trials
         ])
 
         def shares(keep: np.ndarray) -> np.ndarray:
             # A non-finite target leaves a trial out, so one study serves every half.
             result = evaluator.evaluate(study, params=list(names),
-                                        target=lambda t: t.value if keep[t.number] and t.value is not None else math.nan)
+                                        target=lambda t: (t.value if keep[t.number] and t.value is not None
+                                                          else math.nan))
             raw = np.array([result[name] for name in names])
             return raw / raw.sum() if raw.sum() > 0 else raw
 

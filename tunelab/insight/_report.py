@@ -63,7 +63,7 @@ class Reason:
 
     subject: str
     text: str
-    children: tuple["Reason", ...] = ()
+    children: tuple[Reason, ...] = ()
     fold: bool = False  # children behind a click (a family's parameter ranges), so the list stays short
 
 
@@ -110,7 +110,7 @@ class ReportData:
     reasons: Sequence[Reason]
     phases: Sequence[tuple[int, int, str]] = field(default_factory=tuple)  # (phase, first trial, why)
     written_at: str = ""
-    family_verdicts: Sequence["FamilyVerdict"] = field(default_factory=tuple)
+    family_verdicts: Sequence[FamilyVerdict] = field(default_factory=tuple)
     forecast: str = ""  # what another stretch of search is likely to buy, in one line
 
 
@@ -191,8 +191,8 @@ def _facts(d: ReportData) -> str:
     c = d.counts
     total = sum(c.get(s, 0) for s in _STATES)
     states = ", ".join(f"{c.get(s, 0)} {s}" for s in _STATES)
-    extra = "".join(f"; {c[s]} {words}" for s, words in (("running", "running now"), ("waiting", "waiting in the queue"))
-                    if c.get(s))
+    extra = "".join(f"; {c[s]} {words}"
+                    for s, words in (("running", "running now"), ("waiting", "waiting in the queue")) if c.get(s))
     rows: list[tuple[str, str]] = [
         ("Data file", d.data_path or "-"),
         ("Target", d.target or "-"),
@@ -328,7 +328,8 @@ def _reasons(d: ReportData) -> str:
     if len(d.phases) > 1:
         items = "".join(f"<li><span class=\"subject\">phase {n}</span> (from trial {first}): {_e(why)}</li>"
                         for n, first, why in d.phases)
-        out += f"<p>The space changed during the study; reasons above are for the last phase.</p><ul class=\"reasons\">{items}</ul>"
+        out += (f"<p>The space changed during the study; reasons above are for the last phase.</p>"
+                f"<ul class=\"reasons\">{items}</ul>")
     return out
 
 

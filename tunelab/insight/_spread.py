@@ -1,7 +1,7 @@
 """How far each parameter moves the predicted score, and the spread a knob that does nothing shows.
 
-Boosted trees predict the score from a group's parameters (``_forest`` says why not a forest).  The predicted score is averaged
-over the trials while one parameter is set to each of its values in turn (partial dependence;
+Boosted trees predict the score from a group's parameters (``_forest`` says why not a forest).  The predicted
+score is averaged over the trials while one parameter is set to each of its values in turn (partial dependence;
 from memory: Friedman 2001, *Annals of Statistics* 29(5)); continuous parameters are binned into
 ``SPREAD_BINS`` equal-width bins on their sampling scale, integers with few values and categoricals
 use each value.  The spread is the max - min of that marginal mean score, in metric units.  The
@@ -19,8 +19,9 @@ judged on its reach, interactions included.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Protocol
 
 import numpy as np
 
@@ -69,7 +70,13 @@ class Floor:
         return self.planted is not None and self.planted[1] > measurable
 
 
-def _forest(x: np.ndarray, y: np.ndarray, rng: np.random.Generator) -> object:
+class _Fitted(Protocol):
+    """A fitted regressor."""
+
+    def predict(self, x: np.ndarray) -> np.ndarray: ...
+
+
+def _forest(x: np.ndarray, y: np.ndarray, rng: np.random.Generator) -> _Fitted:
     """Boosted trees of depth two: main effects and pairwise interactions, fitted stage by stage.
 
     A random forest fitted to a few dozen trials spends its splits on the strongest knob and
@@ -84,7 +91,7 @@ def _forest(x: np.ndarray, y: np.ndarray, rng: np.random.Generator) -> object:
     return model.fit(x, y)
 
 
-def _curves(forest: object, x: np.ndarray, grids: list[np.ndarray], columns: list[int],
+def _curves(forest: _Fitted, x: np.ndarray, grids: list[np.ndarray], columns: list[int],
             rng: np.random.Generator) -> list[Marginal]:
     """Partial dependence and reach of each of ``columns``, every grid value predicted in one call."""
     n = len(x)
@@ -94,7 +101,7 @@ def _curves(forest: object, x: np.ndarray, grids: list[np.ndarray], columns: lis
         batch = np.repeat(background[None, :, :], len(grid), axis=0)
         batch[:, :, j] = grid[:, None]
         batches.append(batch.reshape(-1, x.shape[1]))
-    pred = np.split(forest.predict(np.vstack(batches)), np.cumsum([len(b) for b in batches])[:-1])  # type: ignore[attr-defined]
+    pred = np.split(forest.predict(np.vstack(batches)), np.cumsum([len(b) for b in batches])[:-1])
     out = []
     for grid, y in zip(grids, pred):
         curves = y.reshape(len(grid), -1)  # grid positions x background trials

@@ -6,14 +6,15 @@ it needs.  Config keys are ``<family>.<param>``; ``prep.*`` keys tune preprocess
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
-from typing import Any, Callable, Iterable, Mapping
+from typing import Any
 
 from sklearn.pipeline import Pipeline
 
 from tunelab.errors import InputError
-from tunelab.models._row_cap import ROWS_KEY
 from tunelab.models._preprocess import build_preprocessor
+from tunelab.models._row_cap import ROWS_KEY
 
 
 @dataclass(frozen=True)

@@ -33,7 +33,7 @@ import numpy as np
 import scipy.sparse as sp
 from sklearn.base import BaseEstimator, ClassifierMixin, RegressorMixin
 from sklearn.model_selection import train_test_split
-from sklearn.utils import check_random_state
+from sklearn.utils import Tags, check_random_state
 from sklearn.utils.multiclass import check_classification_targets
 from sklearn.utils.validation import check_is_fitted, validate_data
 
@@ -438,7 +438,7 @@ class _BaseTorchMLP(BaseEstimator):
     def __sklearn_is_fitted__(self) -> bool:
         return hasattr(self, "module_")
 
-    def __sklearn_tags__(self):  # type: ignore[no-untyped-def]
+    def __sklearn_tags__(self) -> Tags:
         tags = super().__sklearn_tags__()
         tags.input_tags.sparse = True
         return tags
@@ -607,7 +607,7 @@ class TorchMLPRegressor(RegressorMixin, _BaseTorchMLP):
         prediction = self._raw_output(X) * self.y_scale_ + self.y_mean_
         return prediction.ravel() if self.n_outputs_ == 1 else prediction
 
-    def __sklearn_tags__(self):  # type: ignore[no-untyped-def]
+    def __sklearn_tags__(self) -> Tags:
         tags = super().__sklearn_tags__()
         tags.target_tags.multi_output = True
         return tags

@@ -6,7 +6,8 @@ one-hot (or target) encoding and sparse TF-IDF where it is cheaper.
 
 from __future__ import annotations
 
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -59,7 +60,7 @@ class CappedSVD(TransformerMixin, BaseEstimator):
         self.n_components = n_components
         self.random_state = random_state
 
-    def fit(self, X: Any, y: Any = None) -> "CappedSVD":
+    def fit(self, X: Any, y: Any = None) -> CappedSVD:
         k = max(1, min(self.n_components, X.shape[1] - 1, X.shape[0] - 1))
         self.svd_ = TruncatedSVD(n_components=k, random_state=self.random_state).fit(X)
         return self
@@ -161,7 +162,7 @@ class PooledScaler(TransformerMixin, BaseEstimator):
     per-column standardising would erase (see :mod:`tunelab.data._shared_scale`).
     """
 
-    def fit(self, X: Any, y: Any = None) -> "PooledScaler":
+    def fit(self, X: Any, y: Any = None) -> PooledScaler:
         values = np.asarray(X, dtype=float)
         self.mean_ = values.mean(axis=0)
         pooled = float(np.sqrt(values.var(axis=0).mean())) if values.size else 0.0

@@ -8,7 +8,8 @@ same size, so the exported model is the one that was measured.
 
 from __future__ import annotations
 
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 import numpy as np
 from sklearn.model_selection import train_test_split

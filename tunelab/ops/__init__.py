@@ -1,7 +1,13 @@
 """One function per shell verb; the CLI parses, calls one of these, and renders the result."""
 
-from tunelab.ops._insight import (DecisionOptions, FreezeResult, decisions_for, freeze_parameters, study_evidence,
-                                  study_importance)
+from tunelab.ops._insight import (
+    DecisionOptions,
+    FreezeResult,
+    decisions_for,
+    freeze_parameters,
+    study_evidence,
+    study_importance,
+)
 from tunelab.ops._learn import Neighbour, similar_studies
 from tunelab.ops._profile import ProfileReport, profile_data
 from tunelab.ops._report import ReportResult, default_report_path, report_data, write_report

@@ -8,15 +8,17 @@ from __future__ import annotations
 
 import math
 import statistics
+from collections.abc import Mapping
 from dataclasses import asdict, dataclass, field
-from typing import Any, Mapping
+from typing import Any
 
 from tunelab.engine import Clock, SystemClock
 from tunelab.errors import InputError, StudyStateError
 from tunelab.insight import (
     DEFAULT_HORIZON,
+    FANOVA_SECONDS,
     Decisions,
-    ImportanceReport,
+    Method,
     Pace,
     StudyEvidence,
     Thresholds,
@@ -38,7 +40,7 @@ class DecisionOptions:
     """How to decide: the importance method, one family only, the tolerance, the forecast's stretch
     and what gain is worth it, and the seconds the importance computation may take."""
 
-    method: str = "fanova"
+    method: Method = "fanova"
     family: str | None = None
     tolerance: float | None = None
     horizon: float = DEFAULT_HORIZON
@@ -71,7 +73,7 @@ def study_evidence(st: Store, record: StudyRecord) -> StudyEvidence:
     pace = Pace(ledger.spent, len(ended), by_family, max(1, len(current.kept_families)))
     finished_at = {t.number: ledger.at(t.finished) for t in named if t.finished is not None}
     return StudyEvidence(trials=tuple(named), space=phases.distributions(), families=tuple(current.families),
-                         dropped=current.dropped, direction=record.direction,  # type: ignore[arg-type]
+                         dropped=current.dropped, direction=record.direction,
                          metric=record.metric, finished_at=finished_at, spent=ledger.spent, pace=pace)
 
 
@@ -92,10 +94,10 @@ def decisions_for(st: Store, record: StudyRecord, options: DecisionOptions = Dec
         raise InputError(f"study '{record.name}' has no family '{options.family}'",
                          f"families are: {', '.join(evidence.families) or '(none)'}")
     tolerance = options.tolerance if options.tolerance is not None else METRIC_TOLERANCE.get(record.metric)
-    extra = {} if options.seconds is None else {"seconds": options.seconds}
-    decisions = decide(evidence, method=options.method, family=options.family,  # type: ignore[arg-type]
+    seconds = FANOVA_SECONDS if options.seconds is None else options.seconds
+    decisions = decide(evidence, method=options.method, family=options.family,
                        thresholds=Thresholds(spread_tolerance=tolerance), horizon=options.horizon,
-                       worth=options.worth, rank_knobs=options.rank_knobs, seed=options.seed, **extra)
+                       worth=options.worth, rank_knobs=options.rank_knobs, seed=options.seed, seconds=seconds)
     if decisions.importance is not None:
         notes = _ceiling_notes(list(evidence.trials), evidence.space)
         decisions = _with_notes(decisions, notes)
@@ -183,7 +185,8 @@ def freeze_parameters(name: str, assignments: Mapping[str, str], *, auto: bool =
 def _with_notes(decisions: Decisions, notes: tuple[str, ...]) -> Decisions:
     from dataclasses import replace
 
-    report: ImportanceReport = decisions.importance  # type: ignore[assignment]
+    report = decisions.importance
+    assert report is not None  # only called when there is an importance table
     return replace(decisions, importance=replace(report, notes=report.notes + notes))
 
 
@@ -221,7 +224,7 @@ def _parse_value(space: SpaceSpec, param: str, raw: str) -> Any:
             return spec.value
     except ValueError as exc:
         raise InputError(f"'{raw}' is not a number, as {param} needs", f"give {param}=NUMBER") from exc
-    if spec.low is not None and not spec.low <= value <= spec.high:  # type: ignore[operator]
+    if spec.low is not None and not spec.low <= value <= spec.high:
         raise InputError(f"{param}={value} is outside its range [{spec.low}, {spec.high}]",
                          "choose a value inside the searched range")
     return value

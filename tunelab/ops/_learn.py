@@ -11,13 +11,14 @@ the K studies of the same task whose stored meta-features are nearest (``tunelab
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any, Mapping
+from typing import Any
 
-from tunelab.facts import meta_distance
 from tunelab.errors import InputError
+from tunelab.facts import meta_distance
 from tunelab.ops._trials import Phases
-from tunelab.space import carry_configs
+from tunelab.space import SpaceSpec, carry_configs
 from tunelab.store import Store, best_of, keys, ranked, resolve
 
 LEARN_TOP = 3  # best complete trials carried from each earlier study (common practice, no source)

@@ -2,9 +2,6 @@
 
 from __future__ import annotations
 
-import contextlib
-import math
-import os
 import re
 from dataclasses import asdict, dataclass
 from pathlib import Path
@@ -77,7 +74,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
         wall, cpu = st.spent(record.id)
         trials = st.trials(record)
         decisions = decisions_for(st, record, options)
-    counts = {s: 0 for s in TRIAL_STATES}
+    counts: dict[str, int] = {s: 0 for s in TRIAL_STATES}
     points: list[ChartPoint] = []
     families: dict[str, dict[str, Any]] = {  # every family searched, tried or not
         fam: _empty_family() for number in sorted(phases.spaces) for fam in phases.spaces[number].families}
@@ -89,7 +86,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
     for t in trials:
         counts[t.state] += 1
         if t.scored:
-            points.append(ChartPoint(t.number, float(t.value), t.state))  # type: ignore[arg-type]
+            points.append(ChartPoint(t.number, t.score, t.state))  # type: ignore[arg-type]  # scored: complete or pruned
         if t.state in ("running", "waiting"):
             continue
         family = phases.family(t)
@@ -97,19 +94,19 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
             line = families.setdefault(family, _empty_family())
             line["trials"] += 1
             line[t.state] = line.get(t.state, 0) + 1
-            if t.state == "complete" and t.scored and better(float(t.value), line["best"]):  # type: ignore[arg-type]
-                line["best"], line["at"] = float(t.value), t.number  # type: ignore[arg-type]
+            if t.state == "complete" and t.scored and better(t.score, line["best"]):
+                line["best"], line["at"] = t.score, t.number
     best = best_of(trials, record.direction)
     importance, note = _importance(record.name, decisions)
     return ReportData(
         study=record.name, data_path=record.data_path, target=record.target, task=record.task, metric=record.metric,
-        direction=record.direction,  # type: ignore[arg-type]
+        direction=record.direction,
         seed=record.seed, created_at=record.created_at,
         first_start=min((ln.started_at for ln in launches), default=None),
         last_activity=max((ln.heartbeat_at for ln in launches), default=None), launches=len(launches),
         wall_spent=wall, wall_budget=record.budget_wall, cpu_spent=cpu, cpu_budget=record.budget_cpu,
         trials_cap=record.budget_trials, counts=counts,
-        best=None if best is None else BestTrial(best.number, float(best.value), best.fold_std,  # type: ignore[arg-type]
+        best=None if best is None else BestTrial(best.number, best.score, best.fold_std,
                                                  phases.family(best), phases.config(best)),
         points=points, families=_family_lines(families, maximize),
         importance=importance, importance_note=note, reasons=space_reasons(phases.current),
@@ -123,7 +120,8 @@ def _empty_family() -> dict[str, Any]:
 
 
 def _family_lines(families: dict[str, dict[str, Any]], maximize: bool) -> list[FamilyLine]:
-    lines = [FamilyLine(name, f["trials"], f["complete"], f["pruned"], f["best"], f["at"]) for name, f in families.items()]
+    lines = [FamilyLine(name, f["trials"], f["complete"], f["pruned"], f["best"], f["at"])
+             for name, f in families.items()]
 
     def rank(line: FamilyLine) -> tuple[bool, float]:  # best families first, those without a score last
         if line.best is None:

@@ -5,9 +5,10 @@ from __future__ import annotations
 import os
 import re
 import signal
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from tunelab.data import Dataset, dataset_fingerprint, file_sha256, load_dataset
 from tunelab.engine import (
@@ -31,8 +32,8 @@ from tunelab.engine import (
 )
 from tunelab.errors import InputError, StudyStateError
 from tunelab.facts import similarity_vector
-from tunelab.models import FAMILIES, preload
 from tunelab.insight import Decisions
+from tunelab.models import FAMILIES, preload
 from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
 from tunelab.ops._profile import profile_facts, profile_metafeatures
@@ -40,7 +41,6 @@ from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
 from tunelab.space import SpaceSpec, build_space
 from tunelab.store import Store, StudyRecord, keys
-
 
 THREADS_PER_TRIAL = 1
 # The importance computation's allowance in run's first look; with the rest it stays within 5 s.
@@ -110,7 +110,8 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
     work after the launch closes, not charged to the budget).
     """
     if request.study is not None and not request.study.strip():
-        raise InputError("--study is empty", "give the study a name, or leave out --study to name it after the data file")
+        raise InputError("--study is empty",
+                         "give the study a name, or leave out --study to name it after the data file")
     clock = clock or SystemClock()
     dataset = load_dataset(request.data, request.target, request.task)
     metric = resolve_metric(request.metric, dataset.task)
@@ -152,8 +153,8 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
             study = open_search_study(store, record, launch_number=0, create=True)
             for source, config in learned.configs:
                 study.queue(config, **{keys.WARM_START: True, LEARNED_ATTR: source})
-            for config in space.warm_starts:
-                study.queue(config, **{keys.WARM_START: True})
+            for start in space.warm_starts:
+                study.queue(start, **{keys.WARM_START: True})
         with store.guard("run the study", name):
             return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
                            clock=clock, announce=announce,
@@ -213,8 +214,8 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
                            jobs=jobs, notes=dataset.notes, look=look)
 
 
-def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec, budget: Budget, *,
-            dataset_path: Path,
+def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec,
+            budget: Budget, *, dataset_path: Path,
             clock: Clock, announce: Announce | None, on_progress: OnProgress | None,
             runner_factory: Callable[[Any], Any], settings: SearchSettings | None, resumed: bool, jobs: int,
             notes: list[str], look: DecisionOptions | None = None) -> RunResult:

@@ -14,13 +14,20 @@ import pandas as pd
 from tunelab import __version__
 from tunelab.data import clean_column, load_dataset, read_table
 from tunelab.engine import Clock, SystemClock
+from tunelab.errors import InputError, StudyStateError
 from tunelab.files import write_atomically
-from tunelab.values import plain
-from tunelab.errors import InputError, ModelFileError, StudyStateError
-from tunelab.models import build_pipeline, capped_rows, row_cap
-from tunelab.models import check_columns, load_pipeline, read_meta, write_model_file
+from tunelab.models import (
+    build_pipeline,
+    capped_rows,
+    check_columns,
+    load_pipeline,
+    read_meta,
+    row_cap,
+    write_model_file,
+)
 from tunelab.ops._trials import Phases
 from tunelab.store import Store, best_of
+from tunelab.values import plain
 
 
 @dataclass
@@ -87,7 +94,7 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
         }
         sha = write_model_file(out, pipeline, meta)
         st.record_export(record.id, now=clock.now(), path=str(out.resolve()), sha256=sha, trial_number=chosen.number)
-    return ExportResult(record.name, str(out), sha, chosen.number, record.metric, float(chosen.value),
+    return ExportResult(record.name, str(out), sha, chosen.number, record.metric, chosen.score,
                         str(config.get("family", "")))
 
 

@@ -9,11 +9,12 @@ from __future__ import annotations
 import contextlib
 import signal
 import threading
-from typing import Any, Iterator
+from collections.abc import Iterator
+from typing import Any
 
 from tunelab.engine import StopRequested, clear_stop, holding, request_stop
 
-_EXIT_CODES = {signal.SIGINT: 130, signal.SIGTERM: 143, signal.SIGHUP: 129}
+_EXIT_CODES: dict[int, int] = {signal.SIGINT: 130, signal.SIGTERM: 143, signal.SIGHUP: 129}
 
 
 @contextlib.contextmanager

@@ -116,7 +116,7 @@ def _pruning_words(record: StudyRecord) -> str:
 
 
 def _line(st: Store, record: StudyRecord, trials: list[TrialRecord]) -> StudyLine:
-    counts = {s: 0 for s in STATES}
+    counts: dict[str, int] = {s: 0 for s in STATES}
     for t in trials:
         counts[t.state] += 1
     best = best_of(trials, record.direction)

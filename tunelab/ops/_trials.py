@@ -11,7 +11,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from tunelab.engine import settled_config
-from tunelab.space import SpaceSpec
+from tunelab.space import ParamSpec, SpaceSpec
 from tunelab.store import LaunchRecord, PhaseRecord, Store, StudyRecord, TrialRecord, union_length
 
 
@@ -23,7 +23,7 @@ class Phases:
     spaces: dict[int, SpaceSpec]
 
     @classmethod
-    def of(cls, store: Store, record: StudyRecord) -> "Phases":
+    def of(cls, store: Store, record: StudyRecord) -> Phases:
         rows = tuple(store.phases(record.id))
         return cls(rows, {p.number: SpaceSpec.from_json(p.space_json) for p in rows})
 
@@ -50,9 +50,9 @@ class Phases:
         """Families the current phase dropped."""
         return self.current.dropped
 
-    def distributions(self) -> dict[str, Any]:
+    def distributions(self) -> dict[str, ParamSpec]:
         """Every parameter searched in any phase, by name (the earliest, widest phase wins)."""
-        out: dict[str, Any] = {}
+        out: dict[str, ParamSpec] = {}
         for number in sorted(self.spaces):
             for key, spec in self.spaces[number].searched().items():
                 out.setdefault(key, spec)
@@ -73,7 +73,7 @@ class Ledger:
     intervals: tuple[tuple[float, float], ...]
 
     @classmethod
-    def of(cls, launches: list[LaunchRecord]) -> "Ledger":
+    def of(cls, launches: list[LaunchRecord]) -> Ledger:
         return cls(tuple((ln.started_epoch, ln.started_epoch + ln.wall_seconds) for ln in launches))
 
     @property

@@ -49,7 +49,7 @@ class WorkerGroup:
                     proc.wait()
         return [p.returncode for p in self.procs]
 
-    def __enter__(self) -> "WorkerGroup":
+    def __enter__(self) -> WorkerGroup:
         return self
 
     def __exit__(self, exc_type: Any, *_: object) -> None:

@@ -6,8 +6,14 @@ describes the data, and the space builder only reads what these probes measured.
 
 from tunelab.probes._cost_probes import COST_FAMILIES, CostProbe, probe_costs
 from tunelab.probes._landmarkers import LANDMARKERS, Landmarkers, measure_landmarkers
-from tunelab.probes._numeric_maps import (PROBE_CAP_S, PROBE_FOLDS, PROBE_ROWS, TransformProbe, numeric_map_choices,
-                                          probe_transforms)
+from tunelab.probes._numeric_maps import (
+    PROBE_CAP_S,
+    PROBE_FOLDS,
+    PROBE_ROWS,
+    TransformProbe,
+    numeric_map_choices,
+    probe_transforms,
+)
 from tunelab.probes._scaling import SCALING_RULES, scaled_cost
 from tunelab.probes._threads import one_thread
 

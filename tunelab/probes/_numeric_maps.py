@@ -17,8 +17,9 @@ from __future__ import annotations
 import math
 import time
 import warnings
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Callable, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 

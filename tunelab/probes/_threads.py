@@ -16,9 +16,9 @@ def one_thread() -> Iterator[None]:
     numeric-map probe under load).  The limit only reaches libraries already loaded, hence the
     imports of the probed estimators first.
     """
-    import sklearn.discriminant_analysis  # noqa: F401
-    import sklearn.ensemble  # noqa: F401
-    import sklearn.neighbors  # noqa: F401
+    import sklearn.discriminant_analysis
+    import sklearn.ensemble
+    import sklearn.neighbors
     import sklearn.svm  # noqa: F401
     from threadpoolctl import threadpool_limits
 

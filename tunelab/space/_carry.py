@@ -10,7 +10,8 @@ family out for this data, usually for its cost).
 from __future__ import annotations
 
 import math
-from typing import Any, Mapping
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from tunelab.space._spec import ParamSpec, SpaceSpec
 
@@ -36,7 +37,7 @@ def carry_config(space: SpaceSpec, config: Mapping[str, Any]) -> dict[str, Any] 
     return carried
 
 
-def carry_configs(space: SpaceSpec, configs: list[Mapping[str, Any]], limit: int) -> list[dict[str, Any]]:
+def carry_configs(space: SpaceSpec, configs: Sequence[Mapping[str, Any]], limit: int) -> list[dict[str, Any]]:
     """The first ``limit`` configs that carry into ``space``, in order, without repeats."""
     out: list[dict[str, Any]] = []
     seen: set[str] = set()
@@ -64,5 +65,6 @@ def _within(spec: ParamSpec, value: Any) -> Any:
         return _DROP
     if math.isnan(number):
         return _DROP
-    number = min(max(number, float(spec.low)), float(spec.high))  # type: ignore[arg-type]
+    low, high = spec.bounds
+    number = min(max(number, float(low)), float(high))
     return int(round(number)) if spec.kind == "int" else number

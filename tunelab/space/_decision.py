@@ -48,7 +48,7 @@ def prior_centre(spec: ParamSpec, preferred: Any = None) -> Any:
     """The prior centre: ``preferred`` moved inside the range, else the range's own centre."""
     if preferred is None or spec.kind == "categorical":
         return spec.centre()
-    value = clamp(preferred, spec.low, spec.high)  # type: ignore[arg-type]
+    value = clamp(preferred, *spec.bounds)
     return int(round(value)) if spec.kind == "int" else float(value)
 
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Mapping
+from collections.abc import Mapping
 
 from tunelab.models import FAMILY_NAMES
 from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec

@@ -8,19 +8,37 @@ so that a trial at the top of its range still leaves room for several others.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import replace
-from typing import Any, Callable
+from typing import Any
 
 from tunelab.data import HIGH_SKEWNESS
 from tunelab.models import FAMILY_NAMES, MLP_RUNGS, ROWS_KEY
-from tunelab.space._cost_model import (FIT_OVERHEAD_S, budget_words, cost_words, mlp_trial_seconds, trial_seconds,
-                                       work_cap)
+from tunelab.space._cost_model import (
+    FIT_OVERHEAD_S,
+    budget_words,
+    cost_words,
+    mlp_trial_seconds,
+    trial_seconds,
+    work_cap,
+)
 from tunelab.space._decision import Decision, cat_spec, clamp, float_spec, int_spec, prior_centre, put
 from tunelab.space._rule_facts import RuleFacts
-from tunelab.space._rules_of_thumb import (HIST_GB_PRIORS, IMBALANCE_HIGH, KNN_MAX_WIDTH, KNN_SHARE_MAX,
-                                           LANDMARK_CLOSE, MIN_SAMPLE_ROWS, MLP_MIN_ROWS, MLP_SHARE,
-                                           MLP_SHARE_SHARED_SCALE, SAMPLE_ROOM, SVM_MAX_ROWS, SVM_SHARE_MAX,
-                                           TRIAL_SHARE_MAX)
+from tunelab.space._rules_of_thumb import (
+    HIST_GB_PRIORS,
+    IMBALANCE_HIGH,
+    KNN_MAX_WIDTH,
+    KNN_SHARE_MAX,
+    LANDMARK_CLOSE,
+    MIN_SAMPLE_ROWS,
+    MLP_MIN_ROWS,
+    MLP_SHARE,
+    MLP_SHARE_SHARED_SCALE,
+    SAMPLE_ROOM,
+    SVM_MAX_ROWS,
+    SVM_SHARE_MAX,
+    TRIAL_SHARE_MAX,
+)
 from tunelab.space._spec import ParamSpec
 
 

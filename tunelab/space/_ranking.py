@@ -9,14 +9,22 @@ family's prior strength, plus the landmarkers' evidence, less its cost.
 
 from __future__ import annotations
 
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 from tunelab.models import FAMILY_NAMES
 from tunelab.space._cost_model import budget_words
 from tunelab.space._decision import Decision
 from tunelab.space._rule_facts import RuleFacts
-from tunelab.space._rules_of_thumb import (GAP_WEIGHT, LANDMARK_CLOSE, SCORE_FLOOR, SHARED_SCALE_MLP_POINTS, STRENGTH,
-                                           TRIALS_PER_FAMILY, WARM_SHARE)
+from tunelab.space._rules_of_thumb import (
+    GAP_WEIGHT,
+    LANDMARK_CLOSE,
+    SCORE_FLOOR,
+    SHARED_SCALE_MLP_POINTS,
+    STRENGTH,
+    TRIALS_PER_FAMILY,
+    WARM_SHARE,
+)
 
 
 def select_families(decisions: list[Decision], facts: RuleFacts) -> tuple[list[Decision], str]:

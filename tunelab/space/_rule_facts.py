@@ -7,8 +7,8 @@ weighed against.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Mapping
 
 from tunelab.data import ColumnRole
 from tunelab.facts import DataFacts

@@ -11,8 +11,9 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
-from typing import Any, Literal, Mapping
+from typing import Any, Literal
 
 import optuna
 from optuna.distributions import (
@@ -52,21 +53,32 @@ class ParamSpec:
         elif self.kind != "fixed":
             raise InputError(f"unknown parameter kind '{self.kind}'", "use float, int, categorical or fixed")
 
+    @property
+    def bounds(self) -> tuple[float, float]:
+        """``(low, high)`` of a float or int parameter (``__post_init__`` makes sure both are set)."""
+        if self.low is None or self.high is None:
+            raise TypeError(f"a {self.kind} parameter has no range")
+        return self.low, self.high
+
     def distribution(self) -> BaseDistribution | None:
         """The optuna distribution, or None for a fixed value."""
         if self.kind == "float":
-            return FloatDistribution(float(self.low), float(self.high), log=self.log)  # type: ignore[arg-type]
+            low, high = self.bounds
+            return FloatDistribution(float(low), float(high), log=self.log)
         if self.kind == "int":
-            return IntDistribution(int(self.low), int(self.high), log=self.log)  # type: ignore[arg-type]
+            low, high = self.bounds
+            return IntDistribution(int(low), int(high), log=self.log)
         if self.kind == "categorical":
             return CategoricalDistribution(list(self.choices))
         return None
 
     def suggest(self, trial: optuna.Trial, name: str) -> Any:
         if self.kind == "float":
-            return trial.suggest_float(name, float(self.low), float(self.high), log=self.log)  # type: ignore[arg-type]
+            low, high = self.bounds
+            return trial.suggest_float(name, float(low), float(high), log=self.log)
         if self.kind == "int":
-            return trial.suggest_int(name, int(self.low), int(self.high), log=self.log)  # type: ignore[arg-type]
+            low, high = self.bounds
+            return trial.suggest_int(name, int(low), int(high), log=self.log)
         if self.kind == "categorical":
             return trial.suggest_categorical(name, list(self.choices))
         return self.value
@@ -77,7 +89,8 @@ class ParamSpec:
             return self.value
         if self.kind == "categorical":
             return self.choices[0]
-        mid = math.sqrt(self.low * self.high) if self.log else (self.low + self.high) / 2  # type: ignore[operator]
+        low, high = self.bounds
+        mid = math.sqrt(low * high) if self.log else (low + high) / 2
         return int(round(mid)) if self.kind == "int" else float(mid)
 
     def to_dict(self) -> dict[str, Any]:
@@ -93,7 +106,7 @@ class ParamSpec:
         return out
 
     @classmethod
-    def from_dict(cls, data: Mapping[str, Any]) -> "ParamSpec":
+    def from_dict(cls, data: Mapping[str, Any]) -> ParamSpec:
         known = {"kind", "low", "high", "log", "choices", "value", "reason"}
         unknown = set(data) - known
         if unknown:
@@ -189,7 +202,7 @@ class SpaceSpec:
             return self.families[family].params[pname]
         return None
 
-    def freeze(self, values: Mapping[str, Any], reason: str, drop: tuple[str, ...] = ()) -> "SpaceSpec":
+    def freeze(self, values: Mapping[str, Any], reason: str, drop: tuple[str, ...] = ()) -> SpaceSpec:
         """A narrowed copy: each named parameter held at its value (``family`` keeps one family), and
         the families in ``drop`` dropped.
 
@@ -242,7 +255,7 @@ class SpaceSpec:
         return json.dumps(self.to_dict(), indent=2, sort_keys=False)
 
     @classmethod
-    def from_dict(cls, data: Mapping[str, Any]) -> "SpaceSpec":
+    def from_dict(cls, data: Mapping[str, Any]) -> SpaceSpec:
         version = data.get("version", SPEC_VERSION)
         if version > SPEC_VERSION:
             raise InputError(f"search space spec version {version} is newer than this tunelab understands",
@@ -262,7 +275,7 @@ class SpaceSpec:
         )
 
     @classmethod
-    def from_json(cls, text: str) -> "SpaceSpec":
+    def from_json(cls, text: str) -> SpaceSpec:
         try:
             data = json.loads(text)
         except json.JSONDecodeError as exc:

@@ -64,7 +64,8 @@ def check_sqlite_file(path: Path, create: bool) -> None:
             raise StoreError(f"{path} is not a SQLite database (corrupt, or another kind of file)",
                              "pass another --store path; tunelab never overwrites it")
         if not os.access(path, os.R_OK | os.W_OK):
-            raise StoreError(f"store {path} is not readable and writable", "fix its permissions or pass another --store")
+            raise StoreError(f"store {path} is not readable and writable",
+                             "fix its permissions or pass another --store")
         return
     if not create:
         raise StoreError(f"no store at {path}", "start a study with `tunelab run`, or pass --store / TUNELAB_STORE")

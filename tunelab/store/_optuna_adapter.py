@@ -26,9 +26,10 @@ from __future__ import annotations
 
 import copy
 import json
+from collections.abc import Container, Sequence
 from dataclasses import dataclass, field
 from datetime import datetime
-from typing import Any, Container, Sequence
+from typing import Any, cast
 
 from optuna.distributions import BaseDistribution, check_distribution_compatibility, distribution_to_json
 from optuna.storages import RDBStorage
@@ -37,7 +38,7 @@ from optuna.storages._rdb import models
 from optuna.storages._rdb.storage import _create_scoped_session
 from optuna.trial import FrozenTrial, TrialState
 from sqlalchemy import insert, select, update
-
+from sqlalchemy.engine import CursorResult
 
 # Each private name this module uses: (module, attribute) pairs checked by ``missing_private_names``;
 # attributes of instances are checked on a live storage by the adapter's test.
@@ -89,7 +90,7 @@ def missing_private_names() -> list[str]:
     return missing
 
 
-class LocalTrialStorage(_CachedStorage):  # type: ignore[misc]
+class LocalTrialStorage(_CachedStorage):
     """optuna storage whose running trials (created or claimed here) are written at flush points."""
 
     def __init__(self, backend: RDBStorage) -> None:
@@ -141,9 +142,9 @@ class LocalTrialStorage(_CachedStorage):  # type: ignore[misc]
         """
         table = models.TrialModel.__table__
         with _create_scoped_session(self._backend.scoped_session) as session:
-            taken = session.execute(update(table)
-                                    .where(table.c.trial_id == trial_id, table.c.state == TrialState.WAITING)
-                                    .values(state=TrialState.RUNNING, datetime_start=datetime.now()))
+            taken = cast("CursorResult[Any]", session.execute(
+                update(table).where(table.c.trial_id == trial_id, table.c.state == TrialState.WAITING)
+                .values(state=TrialState.RUNNING, datetime_start=datetime.now())))
             if taken.rowcount != 1:
                 return False
             if self.stamp:
@@ -296,7 +297,7 @@ class _Batch:
     def __bool__(self) -> bool:
         return bool(self.params or self.user or self.system or self.steps)
 
-    def then(self, later: "_Batch") -> "_Batch":
+    def then(self, later: _Batch) -> _Batch:
         return _Batch({**self.params, **later.params}, {**self.user, **later.user},
                       {**self.system, **later.system}, {**self.steps, **later.steps})
 
@@ -320,10 +321,10 @@ def _write_batch(session: Any, trial_id: int, batch: _Batch, stored: set[tuple[s
                 stored.add((kind, key))
     table = models.TrialIntermediateValueModel.__table__
     for step, value in batch.steps.items():
-        number, kind = models.TrialIntermediateValueModel.intermediate_value_to_stored_repr(value)
-        row = {"intermediate_value": number, "intermediate_value_type": kind}
+        number, value_type = models.TrialIntermediateValueModel.intermediate_value_to_stored_repr(value)
+        step_row = {"intermediate_value": number, "intermediate_value_type": value_type}
         if ("step", step) in stored:
-            session.execute(update(table).where(table.c.trial_id == trial_id, table.c.step == step).values(**row))
+            session.execute(update(table).where(table.c.trial_id == trial_id, table.c.step == step).values(**step_row))
         else:
-            session.execute(insert(table).values(trial_id=trial_id, step=step, **row))
+            session.execute(insert(table).values(trial_id=trial_id, step=step, **step_row))
             stored.add(("step", step))

@@ -8,8 +8,9 @@ above the store needs optuna's types, its attribute names, or its state words.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any, Iterable, Literal, Mapping
+from typing import TYPE_CHECKING, Any, Literal
 
 from tunelab.store import _keys as k
 
@@ -103,6 +104,13 @@ class TrialRecord:
         """Whether the trial has a finite score: complete, or pruned after a report."""
         return self.state in ("complete", "pruned") and self.value is not None and math.isfinite(self.value)
 
+    @property
+    def score(self) -> float:
+        """The value as a number, for a trial that has one (``scored``, or complete and finite)."""
+        if self.value is None:
+            raise TypeError(f"trial {self.number} has no value")
+        return float(self.value)
+
 
 def best_of(trials: Iterable[TrialRecord], direction: str) -> TrialRecord | None:
     """The best complete trial (earliest on a tie), or ``None`` when none is complete."""
@@ -110,7 +118,7 @@ def best_of(trials: Iterable[TrialRecord], direction: str) -> TrialRecord | None
     for t in trials:
         if t.state != "complete" or t.value is None or not math.isfinite(t.value):
             continue
-        if best is None or (t.value > best.value if direction == "maximize" else t.value < best.value):  # type: ignore[operator]
+        if best is None or (t.value > best.score if direction == "maximize" else t.value < best.score):
             best = t
     return best
 
@@ -119,7 +127,7 @@ def ranked(trials: Iterable[TrialRecord], direction: str) -> list[TrialRecord]:
     """The complete trials, best first (earliest first among equals)."""
     done = [t for t in trials if t.state == "complete" and t.value is not None and math.isfinite(t.value)]
     sign = -1.0 if direction == "maximize" else 1.0
-    return sorted(done, key=lambda t: (sign * float(t.value), t.number))  # type: ignore[arg-type]
+    return sorted(done, key=lambda t: (sign * t.score, t.number))
 
 
 def origin_of(attrs: Mapping[str, Any]) -> str:
@@ -134,7 +142,7 @@ def origin_of(attrs: Mapping[str, Any]) -> str:
     return "prior" if warm else "search"
 
 
-def state_of(trial: "FrozenTrial") -> TrialState:
+def state_of(trial: FrozenTrial) -> TrialState:
     """Our state word for an optuna trial: FAIL means failed or interrupted, by our attribute."""
     name = trial.state.name
     if name == "COMPLETE":
@@ -151,7 +159,7 @@ def state_of(trial: "FrozenTrial") -> TrialState:
 _RECORD_KEYS = {k.LAUNCH, k.PHASE, k.STATE, k.FOLD_SCORES}
 
 
-def record_of(trial: "FrozenTrial") -> TrialRecord:
+def record_of(trial: FrozenTrial) -> TrialRecord:
     """The plain record of one optuna trial."""
     attrs = trial.user_attrs
     state = state_of(trial)

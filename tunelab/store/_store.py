@@ -11,17 +11,17 @@ import contextlib
 import json
 import os
 import socket
+from collections.abc import Iterator
 from dataclasses import dataclass
 from datetime import datetime, timezone
-from typing import Any, Iterator
+from typing import Any, Literal
 
 from sqlalchemy import create_engine, event, func, inspect, select, text, update
 from sqlalchemy.engine import Engine
 from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 
 from tunelab.errors import InputError, StoreError, StudyNotFound
-from tunelab.store import _keys as k
-from tunelab.store import _schema as s
+from tunelab.store import _keys as k, _schema as s
 from tunelab.store._location import Location, check_sqlite_file, resolve
 from tunelab.store._records import TrialRecord, best_of, record_of
 
@@ -49,7 +49,7 @@ class StudyRecord:
     target: str
     task: str
     metric: str
-    direction: str
+    direction: Literal["minimize", "maximize"]
     seed: int
     budget_wall: float | None
     budget_cpu: float | None
@@ -98,7 +98,7 @@ class Store:
 
     # ---- opening -------------------------------------------------------------------------
     @classmethod
-    def open(cls, store: str | None = None, *, create: bool = False) -> "Store":
+    def open(cls, store: str | None = None, *, create: bool = False) -> Store:
         """Open (and with ``create``, initialise) the store at a path or URL.
 
         Raises
@@ -114,13 +114,13 @@ class Store:
             event.listen(engine, "connect", _sqlite_pragmas)
         else:
             engine = _server_engine(location)
-        store = cls(location, engine)
+        opened = cls(location, engine)
         try:
-            store._check_schema(create)
+            opened._check_schema(create)
         except BaseException:
             engine.dispose()
             raise
-        return store
+        return opened
 
     def _check_schema(self, create: bool) -> None:
         with self._translate("open"):
@@ -183,7 +183,7 @@ class Store:
                 self._optuna.dispose()
         self.engine.dispose()
 
-    def __enter__(self) -> "Store":
+    def __enter__(self) -> Store:
         return self
 
     def __exit__(self, *exc: object) -> None:
@@ -204,13 +204,13 @@ class Store:
     def translate(self, exc: BaseException, doing: str, study: str | None = None) -> StoreError | None:
         """The store error behind ``exc`` (a database error anywhere in its chain, optuna's
         included), as one line that says what to do; ``None`` when the database is not the cause."""
-        seen = exc
+        seen: BaseException | None = exc
         while seen is not None:
             if isinstance(seen, StoreError):
                 return seen
             if isinstance(seen, DBAPIError):
                 return _store_error(self.location, doing, seen, study)
-            seen = seen.__cause__ or seen.__context__  # type: ignore[assignment]
+            seen = seen.__cause__ or seen.__context__
         if isinstance(exc, SQLAlchemyError) or type(exc).__name__ == "StorageInternalError":
             return StoreError(f"store error while trying to {doing}: {_first_line(exc)}",
                               "run again with --debug for details")
@@ -284,7 +284,7 @@ class Store:
                 fingerprint=fingerprint, target=target, task=task, metric=metric, direction=direction,
                 seed=seed, budget_wall=budget_wall, budget_cpu=budget_cpu, budget_trials=budget_trials,
                 settings_json=json.dumps(settings),
-            )).inserted_primary_key[0]
+            )).inserted_primary_key[0]  # type: ignore[index]  # never None after an insert
             conn.execute(s.phases.insert().values(study_id=study_id, number=1, created_at=utc_iso(now),
                                                   reason=space_reason, space_json=space_json, first_trial=0))
 
@@ -342,7 +342,7 @@ class Store:
                 study_id=study_id, kind=kind, host=socket.gethostname(), pid=os.getpid(),
                 started_at=utc_iso(now), started_epoch=now, heartbeat_at=utc_iso(now), heartbeat_epoch=now,
                 wall_seconds=0.0, cpu_seconds=0.0, trials_done=0, state="running", stop_reason="",
-            )).inserted_primary_key[0])
+            )).inserted_primary_key[0])  # type: ignore[index]  # never None after an insert
 
     def beat(self, launch_id: int, *, now: float, wall_seconds: float, cpu_seconds: float, trials_done: int) -> bool:
         """The heartbeat: what this launch has spent so far (a crash loses at most one interval).
@@ -547,13 +547,14 @@ def _store_error(location: Location, doing: str, exc: DBAPIError, study: str | N
     if "disk is full" in lowered or "no space left" in lowered or "disk full" in lowered:
         return StoreError(f"disk full at {where}", f"free space, then {again}")
     if "not a database" in lowered or "malformed" in lowered:
-        return StoreError(f"{where} is corrupt or not a SQLite database", "pass another --store; keep the file for inspection")
+        return StoreError(f"{where} is corrupt or not a SQLite database",
+                          "pass another --store; keep the file for inspection")
     if "authentication" in lowered or ("role" in lowered and "does not exist" in lowered):
         return StoreError(f"cannot log in to {where}: {text}", "check the user and password in the store URL")
     if "could not connect" in lowered or "connection refused" in lowered or "timeout expired" in lowered \
             or "could not translate host" in lowered:
-        return StoreError(f"cannot reach the database at {where}: {text}", "check the host, port and that the server runs",
-                          transient=True)
+        return StoreError(f"cannot reach the database at {where}: {text}",
+                          "check the host, port and that the server runs", transient=True)
     if exc.connection_invalidated or "server closed the connection" in lowered or "could not receive data" in lowered \
             or "connection" in lowered and ("lost" in lowered or "closed" in lowered or "terminat" in lowered):
         return StoreError(f"lost the connection to the database at {where}: {text}",
