@@ -13,8 +13,8 @@ from pathlib import Path
 
 import pytest
 
+from benchmarks._faults import TUNELAB, CuttableLink, can_mount, fill, pg_database, pg_facts, read_store, small_disk
 from conftest import small_frame
-from faults import TUNELAB, CuttableLink, can_mount, fill, pg_database, pg_facts, read_store, small_disk
 
 
 def one_line(stderr: str) -> str:
@@ -160,7 +160,7 @@ def _facts(url: str):
     try:
         return pg_facts(url)
     except Exception:  # the tables are not there yet
-        from faults import StoreFacts
+        from benchmarks._faults import StoreFacts
 
         return StoreFacts("ok", {}, set(), {}, [], 0)
 

@@ -1,4 +1,4 @@
-"""Real faults for the fault tests and benchmarks/fault_loop.py: a small full disk, a TCP link to
+"""Real faults for tests/test_faults.py and benchmarks/fault_loop.py: a small full disk, a TCP link to
 PostgreSQL that can be cut, and what a store holds afterwards.
 
 Nothing here imitates a fault: the disk is a size-limited tmpfs mounted for the test (as root, as CI
