@@ -225,3 +225,37 @@ def test_the_forecast_says_stop_when_even_its_upper_end_is_not_worth_it():
 
 def test_the_forecast_needs_three_complete_trials():
     assert forecast([(1.0, 0.5), (2.0, 0.6)], 3.0, direction="maximize", horizon=60.0, worth=0.0) is None
+
+
+# ---------------------------------------------------------------- choosing the winner
+
+
+def timed(number: int, folds: list[float], cpu: float) -> TrialRecord:
+    return TrialRecord(number, {"family": "a"}, float(np.mean(folds)), fold_scores=tuple(folds),
+                       attrs={"cpu_seconds": cpu})
+
+
+def test_the_one_standard_error_rule_ships_the_cheapest_of_two_near_tied_leaders():
+    # Breiman, Friedman, Olshen & Stone 1984: among trials within one standard error of the best,
+    # take the simplest; here the cheapest.  Leader 0.900 (SE 0.0045), runner-up 0.898 at a tenth
+    # of the cost, a third trial far behind.
+    from tunelab.insight import choose
+
+    best = timed(0, [0.89, 0.90, 0.91, 0.90, 0.90], cpu=50.0)
+    close = timed(1, [0.90, 0.89, 0.90, 0.90, 0.90], cpu=5.0)
+    behind = timed(2, [0.80, 0.81, 0.79, 0.80, 0.80], cpu=1.0)
+    picked = choose([best, close, behind], "maximize", "one-se")
+    assert picked is not None and picked.chosen.number == 1 and picked.best.number == 0
+    assert {t.number for t in picked.within} == {0, 1}
+    assert "fits 10.0x faster" in picked.words("roc_auc")
+    assert choose([best, close, behind], "maximize", "best").chosen.number == 0  # type: ignore[union-attr]
+
+
+def test_a_cheaper_trial_beyond_one_standard_error_is_not_shipped():
+    from tunelab.insight import choose
+
+    best = timed(0, [0.90, 0.90, 0.90, 0.91, 0.89], cpu=50.0)
+    cheap = timed(1, [0.85, 0.86, 0.85, 0.85, 0.84], cpu=1.0)
+    picked = choose([best, cheap], "maximize", "one-se")
+    assert picked is not None and picked.chosen.number == 0
+    assert "no other trial is within one standard error" in picked.words("roc_auc")

@@ -129,25 +129,57 @@ def test_the_runner_records_a_trial_pruned_at_a_chunk_with_the_step_it_reached(d
 
 
 def test_mlp_reports_the_held_out_metric_at_a_third_and_two_thirds_of_its_epochs(dataset):
+    # The values reported are the study's metric on the first fold's held-out rows, not the MLP's
+    # inner validation loss: at fold 1 the report is exactly the fold's score from a one-call fit.
     config = {"family": "mlp", "mlp.max_epochs": 6, "mlp.patience": 50, "mlp.hidden_width": 16}
-    metric = METRICS["accuracy"]
+    metric = METRICS["roc_auc"]
     objective = CrossValidationObjective(dataset, metric, seed=0, n_folds=3)
     seen, report = collect()
     result = objective(config, report)
     assert [step for step, _ in seen] == [1, 2, 3, 6]
-    # Accuracy on the first fold's held-out rows is a whole number of rows over their count;
-    # the MLP's inner validation loss (a cross-entropy) would not be.
-    n_test = len(objective.folds[0][1])
     for _, value in seen[:3]:
         assert 0.0 <= value <= 1.0
-        assert value * n_test == pytest.approx(round(value * n_test))
     assert seen[2][1] == result.fold_scores[0] == first_fold_score(dataset, config, metric)
+
+
+def test_under_accuracy_the_rungs_rank_by_the_brier_score_and_the_folds_keep_accuracy(dataset):
+    # Accuracy on part of a fold is a few right-or-wrong rows; the rungs see the Brier score of the
+    # same predictions instead (negated: higher is better, as for accuracy).  Checked against
+    # scikit-learn's sklearn.metrics.brier_score_loss: for two classes our score sums the squared
+    # error over both probability columns, twice the binary Brier loss.
+    from sklearn.metrics import accuracy_score, brier_score_loss
+
+    config = {"family": "linear", "linear.C": 1.0}
+    objective = CrossValidationObjective(dataset, METRICS["accuracy"], seed=0, n_folds=3)
+    seen, report = collect()
+    result = objective(config, report)
+    train, test = objective.folds[0]
+    pipeline = build_pipeline(config, dataset.roles, objective.cardinality, dataset.task, seed=0)
+    with threadpool_limits(1):
+        pipeline.fit(dataset.X.iloc[train], dataset.y[train])
+    positive = pipeline.classes_[1]
+    proba = pipeline.predict_proba(dataset.X.iloc[test])[:, 1]
+    expected = -2 * brier_score_loss(dataset.y[test] == positive, proba)
+    assert dict(seen)[3] == pytest.approx(expected, rel=1e-9)
+    predicted = pipeline.predict(dataset.X.iloc[test])
+    assert result.fold_scores[0] == pytest.approx(accuracy_score(dataset.y[test], predicted))
+    assert result.value == pytest.approx(sum(result.fold_scores) / 3)
+
+
+def test_a_pruned_trial_keeps_the_metric_on_the_folds_it_finished_not_the_ranking_score(dataset):
+    objective = CrossValidationObjective(dataset, METRICS["accuracy"], seed=0, n_folds=3)
+    runner = InProcessRunner(objective)
+    outcome = runner.run({"family": "linear", "linear.C": 1.0}, lambda step, value: step == 6, Limits(None),
+                         SystemClock())
+    assert outcome.kind == "pruned" and outcome.last_value is not None and outcome.last_value < 0  # Brier side
+    assert outcome.fold_scores is not None and len(outcome.fold_scores) == 2
+    assert all(0.0 <= v <= 1.0 for v in outcome.fold_scores)  # accuracy side
 
 
 def test_mlp_checkpoints_sit_at_thirds_of_its_planned_epochs_not_of_max_epochs():
     # Early stopping ends most runs near four patiences; thirds of max_epochs would come too late.
     class HeldOut:
-        def score(self, model, X):
+        def rank(self, model, X):
             return 0.5
 
     model = SimpleNamespace(max_epochs=200, patience=5, module_=object())

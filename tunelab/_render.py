@@ -146,6 +146,8 @@ def print_detail(d: Any) -> None:
         for p in d.phases:
             table.add_row(str(p["phase"]), str(p["first_trial"]), p["created"][:19], p["reason"])
         out.print(table)
+    if d.runners_up:
+        out.print(f"runners-up: {d.runners_up}")
     drops = [v for v in d.decisions if v["action"] == "drop"]
     for v in drops:
         out.print(f"drop {v['family']}: {v['reason']}")

@@ -134,11 +134,15 @@ def freeze(study: str, assignments: Mapping[str, Any] | None = None, *, auto: bo
     return freeze_parameters(study, {k: str(v) for k, v in (assignments or {}).items()}, auto=auto, store=store)
 
 
-def export(study: str, out: str | Path, *, store: str | None = None, trial: int | None = None) -> ExportResult:
-    """Refit the best (or a chosen) trial on all rows and write a model file (``tunelab export``)."""
+def export(study: str, out: str | Path, *, store: str | None = None, trial: int | None = None,
+           choose: str = "best") -> ExportResult:
+    """Refit the best (or a chosen) trial on all rows and write a model file (``tunelab export``).
+
+    ``choose="one-se"`` ships the cheapest trial within one standard error of the best instead.
+    """
     from tunelab.ops import export_model
 
-    return export_model(study, Path(out), store=store, trial=trial)
+    return export_model(study, Path(out), store=store, trial=trial, choose_by=choose)
 
 
 def predict(model: str | Path, data: str | Path, out: str | Path) -> PredictResult:

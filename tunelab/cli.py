@@ -305,6 +305,9 @@ def export(
     study: str = typer.Argument(..., help="Study whose best pipeline to ship."),
     out: Path = typer.Option(..., "--out", "-o", help="Model file to write, e.g. model.zip."),
     trial: int | None = typer.Option(None, "--trial", help="Export this trial instead of the best one."),
+    choose: str = typer.Option("best", "--choose", metavar="RULE",
+                               help="Which trial to ship: best (the best cross-validated score) or one-se (the "
+                                    "cheapest within one standard error of it; `status` shows how many are)."),
     store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
@@ -315,12 +318,14 @@ def export(
     from tunelab import _render as r
     from tunelab.ops import export_model
 
-    result = export_model(study, out, store=store, trial=trial)
+    result = export_model(study, out, store=store, trial=trial, choose_by=choose)
     if json_out:
         r.emit_json(result.to_dict())
         return
-    r.out.print(f"wrote {result.path}: trial {result.trial} ({result.family}), cross-validated {result.metric} "
-                f"{result.score:.4f}; sha256 {result.sha256[:16]}…")
+    rule = {"best": "the best", "one-se": "the cheapest within one standard error of the best",
+            "trial": "as asked"}[result.chosen_by]
+    r.out.print(f"wrote {result.path}: trial {result.trial} ({result.family}, {rule}), cross-validated "
+                f"{result.metric} {result.score:.4f}; sha256 {result.sha256[:16]}…")
 
 
 @app.command()

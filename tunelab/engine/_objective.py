@@ -8,7 +8,11 @@ Steps of the cross-validation objective
 ---------------------------------------
 A pruner compares trials *at equal steps*, so a step must mean the same amount of work and the
 same kind of value for every family.  Here a step is a unit of work — one third of a fold
-(``STEPS_PER_FOLD = 3``) — and the value is always the study's metric on held-out rows:
+(``STEPS_PER_FOLD = 3``) — and the value is always the study's *ranking score* on held-out rows:
+its metric, or for a metric too coarse to rank on part of the data (accuracy) a smooth proper
+scoring rule of the same predictions (``tunelab.evaluation.ranking_metric``).  The fold scores
+a trial keeps, and the score a complete trial is chosen by, are always the study's metric; a
+pruned trial carries the metric on the folds it finished (``PruneSignal.fold_scores``):
 
 ==========================  ========================================================
 step                        value reported
@@ -47,7 +51,7 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
-from tunelab.evaluation import Metric, better, make_folds, score, score_output
+from tunelab.evaluation import Metric, better, make_folds, ranking_metric, score, score_output
 from tunelab.store import keys
 
 Report = Callable[[int, float], None]
@@ -72,7 +76,13 @@ ROUNDS_ATTR = keys.ROUNDS
 
 
 class PruneSignal(Exception):
-    """Raised inside an objective (via ``report``) when the engine decides to prune the trial."""
+    """Raised inside an objective (via ``report``) when the engine decides to prune the trial.
+
+    On its way out of the cross-validation objective it picks up ``fold_scores``: the study's
+    metric on each fold the trial finished.
+    """
+
+    fold_scores: list[float] | None = None
 
 
 @dataclass
@@ -186,25 +196,31 @@ class CrossValidationObjective:
 
         X, y = self.dataset.X, self.dataset.y
         cap = row_cap(config)
-        scores: list[float] = []
+        scores: list[float] = []  # the study's metric, fold by fold
+        ranks: list[float] = []  # what the rungs rank by (the metric, or its smooth stand-in)
         rounds: int | None = None
         started = time.perf_counter()
-        for fold, (train, test) in enumerate(self.folds, start=1):
-            train = capped_rows(train, y, self.dataset.task, cap, self.seed + fold)
-            pipeline = build_pipeline(settled_config(config, rounds), self.dataset.roles, self.cardinality,
-                                      self.dataset.task, seed=self.seed, n_threads=self.n_threads)
-            with warnings.catch_warnings(), threadpool_limits(self.n_threads):
-                warnings.simplefilter("ignore")
-                held_out = _HeldOut(self.metric, y[test], self.dataset.classes)
-                if fold == 1:
-                    first = fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, report)
-                    fitted_score, rounds = first.score, first.rounds
-                else:
-                    pipeline.fit(X.iloc[train], y[train])
-                    fitted_score = held_out.score(pipeline, X.iloc[test])
-            scores.append(fitted_score)
-            if fold < len(self.folds):
-                report(fold_step(fold), float(np.mean(scores)))
+        try:
+            for fold, (train, test) in enumerate(self.folds, start=1):
+                train = capped_rows(train, y, self.dataset.task, cap, self.seed + fold)
+                pipeline = build_pipeline(settled_config(config, rounds), self.dataset.roles, self.cardinality,
+                                          self.dataset.task, seed=self.seed, n_threads=self.n_threads)
+                with warnings.catch_warnings(), threadpool_limits(self.n_threads):
+                    warnings.simplefilter("ignore")
+                    held_out = _HeldOut(self.metric, y[test], self.dataset.classes)
+                    if fold == 1:
+                        first = fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, report)
+                        fitted, rank, rounds = first.score, first.rank, first.rounds
+                    else:
+                        pipeline.fit(X.iloc[train], y[train])
+                        fitted, rank = held_out.both(pipeline, X.iloc[test])
+                scores.append(fitted)
+                ranks.append(rank)
+                if fold < len(self.folds):
+                    report(fold_step(fold), float(np.mean(ranks)))
+        except PruneSignal as stop:
+            stop.fold_scores = list(scores)
+            raise
         extras: dict[str, Any] = {
             keys.FOLD_STD: float(np.std(scores)), keys.FIT_SECONDS: time.perf_counter() - started,
             keys.FIDELITY: f"{len(scores)}/{len(self.folds)} folds"
@@ -229,22 +245,41 @@ def settled_config(config: Mapping[str, Any], rounds: int | None) -> dict[str, A
 
 @dataclass
 class FirstFold:
-    """The first fold's held-out score, and the boosting rounds chosen on it (None if not boosting)."""
+    """The first fold's held-out score and ranking score, and the boosting rounds chosen on it
+    (None if not boosting)."""
 
     score: float
     rounds: int | None = None
+    rank: float = math.nan
+
+    def __post_init__(self) -> None:
+        if math.isnan(self.rank):
+            self.rank = self.score
 
 
 @dataclass
 class _HeldOut:
-    """The held-out rows' target and how to score a fitted model on them."""
+    """The held-out rows' target and how to score a fitted model on them: by the study's metric,
+    and by what the rungs rank on (the same metric unless it is too coarse, see ``ranking_metric``)."""
 
     metric: Metric
     y: np.ndarray
     classes: Any
 
+    @property
+    def ranker(self) -> Metric:
+        return ranking_metric(self.metric)
+
     def score(self, model: Any, X: Any) -> float:
         return score(self.metric, self.y, model, X, self.classes)
+
+    def rank(self, model: Any, X: Any) -> float:
+        return score(self.ranker, self.y, model, X, self.classes)
+
+    def both(self, model: Any, X: Any) -> tuple[float, float]:
+        """The metric and the ranking score, from one prediction when they agree."""
+        value = self.score(model, X)
+        return value, (value if self.ranker is self.metric else self.rank(model, X))
 
 
 def fit_in_parts(pipeline: Any, X_train: Any, y_train: np.ndarray, X_test: Any, held_out: _HeldOut,
@@ -267,7 +302,7 @@ def fit_in_parts(pipeline: Any, X_train: Any, y_train: np.ndarray, X_test: Any, 
         _grow_in_chunks(model, size, Xt_train, y_train, Xt_test, held_out, report)
         if size == "max_iter":
             return best_rounds(model, Xt_test, held_out)
-        return FirstFold(held_out.score(model, Xt_test))
+        return FirstFold(*_scored(held_out, model, Xt_test))
     if _is_torch_mlp(model):
         live = _watching(model)
         pipeline.set_params(model=live)
@@ -275,9 +310,15 @@ def fit_in_parts(pipeline: Any, X_train: Any, y_train: np.ndarray, X_test: Any, 
         Xt_train = prep.fit_transform(X_train, y_train)
         Xt_test = prep.transform(X_test)
         live.fit(Xt_train, y_train, epoch_callback=_epoch_reporter(live, Xt_test, held_out, report))
-        return FirstFold(held_out.score(live, Xt_test))
+        return FirstFold(*_scored(held_out, live, Xt_test))
     pipeline.fit(X_train, y_train)
-    return FirstFold(held_out.score(pipeline, X_test))
+    return FirstFold(*_scored(held_out, pipeline, X_test))
+
+
+def _scored(held_out: _HeldOut, model: Any, X: Any) -> tuple[float, None, float]:
+    """``FirstFold``'s score, rounds (none) and ranking score of a model fitted once."""
+    value, rank = held_out.both(model, X)
+    return value, None, rank
 
 
 def best_rounds(model: Any, X_test: Any, held_out: _HeldOut) -> FirstFold:
@@ -289,21 +330,27 @@ def best_rounds(model: Any, X_test: Any, held_out: _HeldOut) -> FirstFold:
     held-out score after every round for the price of one prediction; it is checked at
     ``ROUND_CHECKS`` evenly spaced counts, and the fewest rounds with the best score win, so a
     flat curve keeps the cheaper model.  This is early stopping judged once, on the first fold:
-    the other folds then fit only the chosen rounds, which saves their time as well.
+    the other folds then fit only the chosen rounds, which saves their time as well.  The rounds
+    are chosen by the ranking score (for accuracy, the Brier score of the same predictions: a
+    handful of rows changing class says little about which round is best).
     """
     total = int(model.n_iter_)
     checks = set(chunk_ends(total, min(ROUND_CHECKS, total)))
-    needs_proba = held_out.metric.needs_proba
-    staged = model.staged_predict_proba(X_test) if needs_proba else model.staged_predict(X_test)
+    ranker = held_out.ranker
     labels = list(getattr(model, "classes_", ()))
-    chosen, best = total, math.nan
+    staged = model.staged_predict_proba(X_test) if ranker.needs_proba else model.staged_predict(X_test)
+    chosen, best, output_at = total, math.nan, None
     for rounds, output in enumerate(staged, start=1):
         if rounds not in checks:
             continue
-        value = score_output(held_out.metric, held_out.y, output, labels)
-        if math.isnan(best) or better(held_out.metric, value, best):
-            chosen, best = rounds, value
-    return FirstFold(best, chosen)
+        value = score_output(ranker, held_out.y, output, labels)
+        if math.isnan(best) or better(ranker, value, best):
+            chosen, best, output_at = rounds, value, output
+    if ranker is held_out.metric or output_at is None:
+        return FirstFold(best, chosen)
+    # The study's metric at the chosen rounds, from the same staged output (labels from probabilities).
+    predicted = np.asarray(labels)[np.argmax(output_at, axis=1)]
+    return FirstFold(score_output(held_out.metric, held_out.y, predicted, labels), chosen, best)
 
 
 def chunk_ends(total: int, parts: int = STEPS_PER_FOLD) -> list[int]:
@@ -343,7 +390,7 @@ def _grow_in_chunks(model: Any, size: str, X: Any, y: np.ndarray, X_test: Any, h
             model.fit(X, y, **fit_kwargs)
             stopped = bool(fit_kwargs) and int(model.n_iter_) < end
         if step < len(ends):
-            report(step, held_out.score(model, X_test))
+            report(step, held_out.rank(model, X_test))
     model.set_params(warm_start=False, **({"early_stopping": False} if fit_kwargs else {}))
 
 
@@ -413,6 +460,6 @@ def _epoch_reporter(model: Any, X_test: Any, held_out: _HeldOut, report: Report)
             return
         if not math.isfinite(validation_loss):
             return  # the MLP stops on its own; the fold's final score is reported as usual
-        report(step, held_out.score(model, X_test))
+        report(step, held_out.rank(model, X_test))
 
     return on_epoch

@@ -44,6 +44,7 @@ class Outcome:
     last_value: float | None = None
     cpu_seconds: float = 0.0
     extras: dict[str, Any] = field(default_factory=dict)
+    fold_scores: list[float] | None = None  # a pruned trial's metric on the folds it finished
 
 
 class Limits:
@@ -71,19 +72,21 @@ class InProcessRunner:
             if limits.deadline is not None and clock.now() >= limits.deadline:
                 raise _Timeout()
 
+        folds: list[float] | None = None
         try:
             result = self.objective(config, report)
             kind: OutcomeKind = "complete"
             error = ""
-        except PruneSignal:
-            result, kind, error = None, "pruned", ""
+        except PruneSignal as stop:
+            result, kind, error, folds = None, "pruned", "", stop.fold_scores
         except _Timeout:
             result, kind, error = None, "timeout", ""
         except (KeyboardInterrupt, SystemExit):
             raise
         except Exception as exc:  # a failing config must not end the search
             result, kind, error = None, "failed", _error_text(exc)
-        return Outcome(kind, result, error, int(state["step"]), state["value"], _own_cpu() - cpu0)
+        return Outcome(kind, result, error, int(state["step"]), state["value"], _own_cpu() - cpu0,
+                       fold_scores=folds)
 
     def close(self) -> None:
         return None
@@ -142,7 +145,8 @@ class ForkRunner:
                     return Outcome("complete", result=message[1], last_step=last_step, last_value=last_value,
                                    cpu_seconds=cpu)
                 if tag == "pruned":
-                    return Outcome("pruned", last_step=last_step, last_value=last_value, cpu_seconds=cpu)
+                    return Outcome("pruned", last_step=last_step, last_value=last_value, cpu_seconds=cpu,
+                                   fold_scores=message[1])
                 return Outcome("failed", error=message[1], last_step=last_step, last_value=last_value, cpu_seconds=cpu)
         except BaseException:
             self._kill(child)
@@ -185,8 +189,8 @@ def _child_main(objective: Objective, config: dict[str, Any], conn: Any) -> None
     try:
         result = objective(config, report)
         conn.send(("done", result, _own_cpu()))
-    except PruneSignal:
-        conn.send(("pruned", _own_cpu()))
+    except PruneSignal as stop:
+        conn.send(("pruned", stop.fold_scores, _own_cpu()))
     except BaseException as exc:  # report every failure to the parent as text
         conn.send(("error", _error_text(exc), _own_cpu()))
     finally:

@@ -376,7 +376,9 @@ def _record(study: SearchStudy, trial: Any, outcome: Outcome, seconds: float, re
         trial.set_user_attr(keys.FIDELITY, f"step {outcome.last_step}{words}")
         trial.set_user_attr(keys.SECONDS, seconds)
         trial.set_user_attr(keys.CPU_SECONDS, outcome.cpu_seconds)
-        folds = fold_scores_from_reports(reports)
+        # The metric on the folds it finished: carried by the objective, or (an objective that
+        # reports its metric itself) read back from the running means it reported.
+        folds = outcome.fold_scores if outcome.fold_scores is not None else fold_scores_from_reports(reports)
         if folds:
             trial.set_user_attr(keys.FOLD_SCORES, folds)
         study.study.tell(trial, state=TrialState.PRUNED)

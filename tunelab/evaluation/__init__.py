@@ -11,10 +11,11 @@ from tunelab.evaluation._metrics import (
     Direction,
     Metric,
     better,
+    ranking_metric,
     resolve_metric,
     score,
     score_output,
 )
 
 __all__ = ["DEFAULT_METRIC", "Direction", "LARGE_DATA_ROWS", "METRICS", "Metric", "better", "fold_count",
-           "make_folds", "resolve_metric", "score", "score_output"]
+           "make_folds", "ranking_metric", "resolve_metric", "score", "score_output"]

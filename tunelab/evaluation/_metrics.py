@@ -16,17 +16,29 @@ Direction = Literal["maximize", "minimize"]
 
 @dataclass(frozen=True)
 class Metric:
-    """A metric's name, optimisation direction, whether it needs probabilities, and its tasks."""
+    """A metric's name, optimisation direction, whether it needs probabilities, and its tasks.
+
+    ``rank_by`` names a smooth proper scoring rule to rank trials by while they are being pruned,
+    for a metric too coarse to rank on part of the data (see ``ranking_metric``).
+    """
 
     name: str
     direction: Direction
     needs_proba: bool
     tasks: tuple[str, ...]
+    rank_by: str | None = None
 
+
+# Accuracy on a third of a fold is a handful of right-or-wrong counts: two configurations tie or
+# swap on a single row.  While trials are pruned they are ranked by the Brier score of the same
+# predictions instead (a proper scoring rule, smooth in the probabilities: Brier 1950, *Monthly
+# Weather Review* 78(1); Gneiting & Raftery 2007, *JASA* 102(477); from memory), negated so that,
+# like accuracy, higher is better; the final score and the choice of the best stay accuracy.
+NEG_BRIER = Metric("neg_brier", "maximize", True, ("binary", "multiclass"))
 
 METRICS: dict[str, Metric] = {
     "roc_auc": Metric("roc_auc", "maximize", True, ("binary", "multiclass")),
-    "accuracy": Metric("accuracy", "maximize", False, ("binary", "multiclass")),
+    "accuracy": Metric("accuracy", "maximize", False, ("binary", "multiclass"), rank_by="neg_brier"),
     "log_loss": Metric("log_loss", "minimize", True, ("binary", "multiclass")),
     "rmse": Metric("rmse", "minimize", False, ("regression",)),
     "mae": Metric("mae", "minimize", False, ("regression",)),
@@ -34,6 +46,11 @@ METRICS: dict[str, Metric] = {
 }
 
 DEFAULT_METRIC = {"binary": "roc_auc", "multiclass": "log_loss", "regression": "rmse"}
+
+
+def ranking_metric(metric: Metric) -> Metric:
+    """What trials are ranked by at the pruning rungs: ``metric`` itself, or its smooth stand-in."""
+    return NEG_BRIER if metric.rank_by == NEG_BRIER.name else metric
 
 
 def resolve_metric(name: str | None, task: str) -> Metric:
@@ -65,6 +82,9 @@ def score_output(metric: Metric, y_true: np.ndarray, output: np.ndarray, labels:
         proba, labels = output, list(labels)
         if metric.name == "log_loss":
             return float(skm.log_loss(y_true, proba, labels=labels))
+        if metric.name == NEG_BRIER.name:
+            onehot = (np.asarray(y_true)[:, None] == np.asarray(labels)[None, :]).astype(float)
+            return -float(np.mean(np.sum((np.asarray(proba, dtype=float) - onehot) ** 2, axis=1)))
         if len(labels) == 2:
             return float(skm.roc_auc_score(y_true, proba[:, 1]))
         present = np.isin(labels, np.unique(y_true))

@@ -1,6 +1,7 @@
 """Insight into a search: which families to drop, which knobs matter or can be frozen at what value,
 whether another stretch of search is worth it, and the HTML report."""
 
+from tunelab.insight._choice import RULES, Choice, Rule, choose
 from tunelab.insight._decisions import DEFAULT_HORIZON, Decisions, StudyEvidence, decide, default_worth
 from tunelab.insight._evidence import comparable, fold_fit
 from tunelab.insight._families import FamilyVerdict, family_verdicts
@@ -35,6 +36,7 @@ from tunelab.store import TrialRecord
 __all__ = [
     "BestTrial",
     "ChartPoint",
+    "Choice",
     "DEFAULT_HORIZON",
     "Decisions",
     "FAMILY_PARAM",
@@ -48,12 +50,15 @@ __all__ = [
     "ImportanceRow",
     "Method",
     "Pace",
+    "RULES",
     "Reason",
     "ReportData",
+    "Rule",
     "StudyEvidence",
     "Thresholds",
     "TrialRecord",
     "best_so_far",
+    "choose",
     "comparable",
     "decide",
     "default_worth",

@@ -16,6 +16,7 @@ from tunelab.data import clean_column, load_dataset, read_table
 from tunelab.engine import Clock, SystemClock
 from tunelab.errors import InputError, StudyStateError
 from tunelab.files import write_atomically
+from tunelab.insight import RULES, choose
 from tunelab.models import (
     build_pipeline,
     capped_rows,
@@ -26,7 +27,7 @@ from tunelab.models import (
     write_model_file,
 )
 from tunelab.ops._trials import Phases
-from tunelab.store import Store, best_of
+from tunelab.store import Store
 from tunelab.values import plain
 
 
@@ -39,6 +40,7 @@ class ExportResult:
     metric: str
     score: float
     family: str
+    chosen_by: str = "best"  # "best", "one-se", or "trial" when named
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -56,8 +58,12 @@ class PredictResult:
 
 
 def export_model(name: str, out: Path, *, store: str | None = None, trial: int | None = None,
-                 clock: Clock | None = None) -> ExportResult:
-    """Refit the best (or a chosen) trial's pipeline on all rows and write a model file."""
+                 choose_by: str = "best", clock: Clock | None = None) -> ExportResult:
+    """Refit the best (or a chosen) trial's pipeline on all rows and write a model file.
+
+    ``choose_by`` is the rule that picks the trial when ``trial`` is not given: ``best`` (the best
+    cross-validated score) or ``one-se`` (the cheapest within one standard error of it).
+    """
     clock = clock or SystemClock()
     if out.exists() and out.is_dir():
         raise InputError(f"--out {out} is a folder", "pass a file path such as model.zip")
@@ -66,7 +72,10 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
     with Store.open(store) as st:
         record = st.get_study(name)
         trials = st.trials(record)
-        chosen = best_of(trials, record.direction)
+        if choose_by not in RULES:
+            raise InputError(f"unknown rule '{choose_by}' for choosing the trial", f"use one of: {', '.join(RULES)}")
+        picked = choose(trials, record.direction, choose_by)
+        chosen = picked.chosen if picked is not None else None
         if chosen is None:
             raise StudyStateError(f"study '{name}' has no finished trial to export",
                                   f"give it more budget: tunelab resume {name} --extend 10m")
@@ -95,7 +104,7 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
         sha = write_model_file(out, pipeline, meta)
         st.record_export(record.id, now=clock.now(), path=str(out.resolve()), sha256=sha, trial_number=chosen.number)
     return ExportResult(record.name, str(out), sha, chosen.number, record.metric, chosen.score,
-                        str(config.get("family", "")))
+                        str(config.get("family", "")), "trial" if trial is not None else choose_by)
 
 
 def predict_file(model: Path, data: Path, out: Path) -> PredictResult:

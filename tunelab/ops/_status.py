@@ -6,6 +6,7 @@ from dataclasses import asdict, dataclass, field, replace
 from typing import Any
 
 from tunelab.engine import choose_pruning
+from tunelab.insight import choose
 from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._trials import Phases, shown_params
 from tunelab.store import TRIAL_STATES, Store, StudyRecord, TrialRecord, best_of, ranked
@@ -66,6 +67,8 @@ class StudyDetail:
     decisions: list[dict[str, Any]] = field(default_factory=list)  # one verdict per family
     forecast: dict[str, Any] | None = None
     forecast_line: str = ""
+    runners_up: str = ""  # how close the runners-up are to the best (one standard error)
+    within_one_se: list[int] = field(default_factory=list)  # complete trials within one standard error of the best
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -84,6 +87,7 @@ def study_detail(name: str, store: str | None, top: int = 5,
     with Store.open(store) as st:
         record = st.get_study(name)
         decisions = decisions_for(st, record, replace(options, rank_knobs=False))
+        choice = choose(st.trials(record), record.direction)
         trials = st.trials(record)
         line = _line(st, record, trials)
         best = ranked(trials, record.direction)
@@ -103,7 +107,9 @@ def study_detail(name: str, store: str | None, top: int = 5,
                            families=list(phases.current.families), dropped=list(phases.dropped),
                            decisions=[v.to_dict() for v in decisions.families],
                            forecast=None if decisions.forecast is None else decisions.forecast.to_dict(),
-                           forecast_line=decisions.forecast_line())
+                           forecast_line=decisions.forecast_line(),
+                           runners_up=choice.words(record.metric) if choice else "",
+                           within_one_se=[t.number for t in choice.within] if choice else [])
 
 
 def _pruning_words(record: StudyRecord) -> str:
