@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import os
 import sys
 from dataclasses import dataclass
 from pathlib import Path
@@ -13,6 +14,9 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "studies"))
+# Tests run one worker unless they test parallelism (those pass --jobs): the default is auto, the
+# CPUs this machine gives, which would make every search a parallel one.
+os.environ["TUNELAB_JOBS"] = "1"
 
 
 @dataclass

@@ -73,3 +73,22 @@ def test_no_color_is_respected_on_a_terminal(cli, store_path, small_csv, monkeyp
     args = ["status", "--store", str(store_path)]
     assert "\x1b[" in _on_a_terminal(args, {})  # on a terminal the table is styled ...
     assert "\x1b[" not in _on_a_terminal(args, {"NO_COLOR": "1"})  # ... unless NO_COLOR says not to
+
+
+def test_jobs_auto_is_the_cpus_the_affinity_allows():
+    # A process narrowed to one CPU (as taskset or a container does) runs one worker under auto.
+    import subprocess
+    import sys
+
+    code = ("import os; from tunelab.ops._jobs import resolve_jobs, usable_cpus; "
+            "os.sched_setaffinity(0, {sorted(os.sched_getaffinity(0))[0]}); "
+            "jobs = resolve_jobs('auto'); print(jobs.count, '|', jobs.why)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    count, why = out.split("|")
+    assert int(count) == 1 and "affinity" in why
+
+
+def test_jobs_must_be_auto_or_a_whole_number(cli, small_csv, store_path):
+    result = cli("run", str(small_csv), "--target", "y", "--trials", "1", "--jobs", "0", "--store", str(store_path))
+    assert result.code == 2 and "--jobs must be at least 1" in result.err
+    assert not store_path.exists()

@@ -268,6 +268,10 @@ def print_profile(report: Any) -> None:
     out.print(table)
     for note in space.get("notes", []):
         out.print(f"• {note}")
+    if report.expected_trials is not None:
+        box = format_duration(report.budget_seconds) if report.budget_seconds else "the reference 10m"
+        out.print(f"about {report.expected_trials:.0f} trials expected in {box} with {report.workers} "
+                  f"worker{'s' if report.workers != 1 else ''} (--jobs)")
 
 
 def print_similar(similar: list[Any], task: str) -> None:

@@ -69,13 +69,14 @@ def decision_options(horizon: Duration = "10m", worth: float | str | None = None
 def run(data: str | Path, target: str, *, budget: Duration | None = None, trials: int | None = None,
         cpu_budget: Duration | None = None, metric: str | None = None, task: str | None = None,
         study: str | None = None, store: str | None = None, seed: int = 0, space: str | Path | None = None,
-        pruning: str = "auto", jobs: int = 1, learn_from: Sequence[str] = (), learn_nearest: int = 0,
+        pruning: str = "auto", jobs: str | int | None = None, learn_from: Sequence[str] = (), learn_nearest: int = 0,
         horizon: Duration = "10m", worth: float | None = None,
         on_progress: Callable[[Progress], None] | None = None) -> RunResult:
     """Profile a data file, build its search space and search it within a budget (``tunelab run``).
 
     ``budget`` is the study's total wall-clock time (default 10 minutes unless ``trials`` caps the
-    count); the result holds the best trial, how the launch ended, and the first look at what is
+    count); ``jobs`` the worker processes (a number or ``"auto"``; default ``TUNELAB_JOBS``, else
+    auto).  The result holds the best trial, how the launch ended, and the first look at what is
     already decided (``result.decisions``).
     """
     from tunelab.engine import Budget
@@ -90,7 +91,7 @@ def run(data: str | Path, target: str, *, budget: Duration | None = None, trials
 
 
 def resume(study: str, *, store: str | None = None, extend: Duration | None = None, more_trials: int = 0,
-           data: str | Path | None = None, accept_changed_data: bool = False, jobs: int = 1,
+           data: str | Path | None = None, accept_changed_data: bool = False, jobs: str | int | None = None,
            horizon: Duration = "10m", worth: float | None = None,
            on_progress: Callable[[Progress], None] | None = None) -> RunResult:
     """Continue a study with the budget that is left, plus ``extend`` (``tunelab resume``)."""

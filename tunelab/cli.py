@@ -49,6 +49,10 @@ StoreOpt = typer.Option(None, "--store", envvar="TUNELAB_STORE", metavar="PATH|U
 JsonOpt = typer.Option(False, "--json", help="Print the result as JSON on stdout.")
 QuietOpt = typer.Option(False, "-q", "--quiet", help="No progress output; results only.")
 SeedOpt = typer.Option(0, "--seed", help="Seed for folds, models and the sampler.")
+JobsOpt = typer.Option("auto", "--jobs", "-j", metavar="N|auto", envvar="TUNELAB_JOBS",
+                       help="Worker processes on this machine, each running one trial at a time on one thread: a "
+                            "number, or auto (the CPUs this process may use, capped by the memory one needs). "
+                            "TUNELAB_JOBS sets the default.")
 HorizonOpt = typer.Option("10m", "--horizon", metavar="DURATION",
                           help="The stretch of search the forecast looks at, in study time, e.g. 10m or 1h.")
 WorthOpt = typer.Option(None, "--worth", metavar="GAIN",
@@ -116,9 +120,12 @@ def _progress_hooks(metric_holder: dict[str, Any], quiet: bool) -> tuple[Any, An
         verb = start.verb
         budget = start.budget
         box = "-" if budget.wall_seconds is None else r.format_duration(budget.wall_seconds)
+        workers = f" · {start.workers} worker{'s' if start.workers != 1 else ''} ({start.workers_why})" \
+            if start.workers_why else ""
         r.err.print(f"{verb} {start.study} · store {start.store} · {start.rows} rows × {start.columns} columns · "
                     f"{start.task}, {start.metric} ({start.direction}) · budget {box}"
-                    + (f", {r.format_duration(start.spent_wall)} already spent" if start.spent_wall else ""))
+                    + (f", {r.format_duration(start.spent_wall)} already spent" if start.spent_wall else "")
+                    + workers)
         for note in start.notes:
             r.err.print(f"  note: {note}")
         bar = r.LiveProgress(start.metric, enabled=True)
@@ -164,7 +171,7 @@ def run(
     pruning: str = typer.Option("auto", "--pruning",
                                 help="auto, off, median, halving or hyperband. auto counts the trials the budget "
                                      "should finish: off under 4, successive halving from there."),
-    jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
+    jobs: str = JobsOpt,
     learn: list[str] | None = typer.Option(None, "--learn-from", metavar="STUDY",
                                            help="An earlier study in the same store (same kind of task): its "
                                                 "best 3 configurations run first, moved into this data's ranges. "
@@ -216,7 +223,7 @@ def resume(
     data: Path | None = typer.Option(None, "--data", help="The data file's new place, if it moved."),
     accept_changed_data: bool = typer.Option(False, "--accept-changed-data",
                                              help="Continue even though the data file's bytes changed."),
-    jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes sharing the study."),
+    jobs: str = JobsOpt,
     horizon: str = HorizonOpt,
     worth: str | None = WorthOpt,
     store: str | None = StoreOpt,
@@ -248,7 +255,7 @@ def worker(
     ctx: typer.Context,
     study: str = typer.Argument(..., help="Name of a study to join (it must exist in the store)."),
     data: Path | None = typer.Option(None, "--data", help="Where the study's data file is on this machine."),
-    jobs: int = typer.Option(1, "--jobs", "-j", help="Worker processes to start on this machine."),
+    jobs: str = JobsOpt,
     store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
     quiet: bool = QuietOpt,
@@ -359,6 +366,7 @@ def profile(
     write_space: Path | None = typer.Option(None, "--write-space", help="Write the search space JSON here "
                                                                           "(edit it, then pass it to run --space)."),
     seed: int = SeedOpt,
+    jobs: str = JobsOpt,
     store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
@@ -375,10 +383,13 @@ def profile(
     from tunelab.ops import profile_data, similar_studies
 
     seconds = parse_duration(budget) if budget else None
-    report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed)
+    report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed, jobs=jobs)
     similar = similar_studies(store, similarity_vector(report.meta), report.task)
     if write_space is not None:
-        write_space.write_text(report.space.to_json() + "\n", encoding="utf-8")
+        from tunelab.files import write_atomically
+
+        text = report.space.to_json() + "\n"
+        write_atomically(write_space, lambda tmp: tmp.write_text(text, encoding="utf-8"), "space file")
     if json_out:
         r.emit_json({**report.to_dict(),
                      "similar_studies": [{"study": n.study, "distance": n.distance} for n in similar]})

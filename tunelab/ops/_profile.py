@@ -18,8 +18,9 @@ from tunelab.data import Dataset, load_dataset
 from tunelab.evaluation import resolve_metric
 from tunelab.facts import DataFacts, MetaFeatures, compute_metafeatures, data_facts
 from tunelab.models import ONE_HOT_MAX_CARDINALITY
+from tunelab.ops._jobs import parse_jobs, resolve_jobs
 from tunelab.probes import probe_transforms
-from tunelab.space import SpaceSpec, build_space
+from tunelab.space import REFERENCE_BUDGET_S, SpaceSpec, build_space
 from tunelab.values import plain
 
 # Meta-feature effort: landmarkers on at most this many rows, each stopped after this many seconds,
@@ -99,6 +100,8 @@ class ProfileReport:
     budget_seconds: float | None
     notes: tuple[str, ...]
     seconds: float
+    workers: int = 1
+    expected_trials: float | None = None
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready values, for ``profile --json``."""
@@ -109,6 +112,8 @@ class ProfileReport:
             "meta_features": self.meta.to_dict(),
             "space": self.space.to_dict(),
             "budget_seconds": self.budget_seconds,
+            "workers": self.workers,
+            "expected_trials": self.expected_trials,
             "notes": list(self.notes),
             "seconds": self.seconds,
         }
@@ -169,7 +174,8 @@ def built_space(dataset: Dataset, *, budget_seconds: float | None, metric: str |
 
 
 def profile_data(path: str | Path, target: str, task: str | None = None, *,
-                 budget_seconds: float | None = None, metric: str | None = None, seed: int = 0) -> ProfileReport:
+                 budget_seconds: float | None = None, metric: str | None = None, seed: int = 0,
+                 jobs: str | int | None = None) -> ProfileReport:
     """Load a data file, describe it, and build the search space ``run`` would use.
 
     Parameters
@@ -209,8 +215,19 @@ def profile_data(path: str | Path, target: str, task: str | None = None, *,
                                   tokens.get(c.name) if c.role == "text" else None, _treatment(c.role, c.n_unique,
                                                                                               c.missing_share))
                     for c in dataset.columns)
+    workers = resolve_jobs(parse_jobs(jobs), process_bytes=_resident_bytes()).count
+    expected = None
+    if space.trial_seconds and (budget_seconds or REFERENCE_BUDGET_S):
+        expected = round(workers * (budget_seconds or REFERENCE_BUDGET_S) / space.trial_seconds, 1)
     return ProfileReport(str(path), target, dataset.task, dataset.n_rows, columns, tuple(dataset.classes), meta,
-                         space, budget_seconds, tuple(dataset.notes), time.perf_counter() - started)
+                         space, budget_seconds, tuple(dataset.notes), time.perf_counter() - started, workers,
+                         expected)
+
+
+def _resident_bytes() -> int:
+    import psutil
+
+    return int(psutil.Process().memory_info().rss)
 
 
 def _treatment(role: str, n_unique: int, missing_share: float) -> str:

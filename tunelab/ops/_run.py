@@ -35,6 +35,7 @@ from tunelab.facts import similarity_vector
 from tunelab.insight import Decisions
 from tunelab.models import FAMILIES, preload
 from tunelab.ops._insight import DecisionOptions, decisions_for
+from tunelab.ops._jobs import Jobs, parse_jobs, resolve_jobs
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
 from tunelab.ops._profile import profile_facts, profile_metafeatures
 from tunelab.ops._signals import stop_on_signals
@@ -61,7 +62,7 @@ class RunRequest:
     seed: int = 0
     space_file: Path | None = None
     pruning: str = "auto"
-    jobs: int = 1
+    jobs: str | int | None = None  # worker processes: a number, auto, or None for TUNELAB_JOBS else auto
     learn_from: tuple[str, ...] = ()  # earlier studies in the same store whose best configs run first
     learn_nearest: int = 0  # also learn from this many earlier studies whose data looks most alike
 
@@ -82,6 +83,8 @@ class StudyStart:
     notes: list[str] = field(default_factory=list)
     resumed: bool = False
     verb: str = "study"
+    workers: int = 1
+    workers_why: str = ""
 
 
 @dataclass
@@ -109,6 +112,7 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
     With ``look``, the result carries the first look at the decisions (``FIRST_LOOK_SECONDS`` of
     work after the launch closes, not charged to the budget).
     """
+    parse_jobs(request.jobs)  # a bad --jobs is refused before any work
     if request.study is not None and not request.study.strip():
         raise InputError("--study is empty",
                          "give the study a name, or leave out --study to name it after the data file")
@@ -128,7 +132,8 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         similarity = similarity_vector(facts.meta)
     _check_space_fits(space, dataset)
     pruner_kind = request.pruning
-    expected = _expected_trials(space, request.budget, request.jobs)
+    workers = _workers(request.jobs)
+    expected = _expected_trials(space, request.budget, workers.count)
     make_pruner(pruner_kind, max_steps=5)  # validate before the store is touched
     with Store.open(request.store, create=True) as store:
         name = request.study or _unique_name(request.data.stem, store.study_names())
@@ -144,7 +149,7 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
             task=dataset.task, metric=metric.name, direction=metric.direction, seed=request.seed,
             budget_wall=request.budget.wall_seconds, budget_cpu=request.budget.cpu_seconds,
             budget_trials=request.budget.trials,
-            settings={"pruning": pruner_kind, "jobs": request.jobs, "expected_trials": expected,
+            settings={"pruning": pruner_kind, "jobs": workers.count, "expected_trials": expected,
                       "n_folds": fold_count(dataset.n_rows, dataset.task, dataset.y),
                       **({SIMILARITY_KEY: similarity} if similarity else {})},
             space_json=space.to_json(), space_reason=space.family_reason or "initial search space",
@@ -159,14 +164,15 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
             return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
                            clock=clock, announce=announce,
                            on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
-                           jobs=request.jobs, notes=[*dataset.notes, *learned.notes], look=look)
+                           jobs=workers, notes=[*dataset.notes, *learned.notes], look=look)
 
 
 def resume_study(name: str, *, store: str | None = None, extend_seconds: float = 0.0, extend_trials: int = 0,
                  data: Path | None = None, accept_changed_data: bool = False, clock: Clock | None = None,
                  announce: Announce | None = None, on_progress: OnProgress | None = None,
                  runner_factory: Callable[[Any], Any] = ForkRunner, settings: SearchSettings | None = None,
-                 jobs: int = 1, kind: str = "resume", look: DecisionOptions | None = None) -> RunResult:
+                 jobs: str | int | None = None, kind: str = "resume",
+                 look: DecisionOptions | None = None) -> RunResult:
     """Continue a study with what is left of its budget (plus any extension).
 
     ``kind="worker"`` joins a study other processes are working on (``tunelab worker``): the same
@@ -211,13 +217,13 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
             return _launch(st, record, study, dataset, space, budget, dataset_path=path.resolve(), clock=clock,
                            announce=announce,
                            on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=True,
-                           jobs=jobs, notes=dataset.notes, look=look)
+                           jobs=_workers(jobs), notes=dataset.notes, look=look)
 
 
 def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec,
             budget: Budget, *, dataset_path: Path,
             clock: Clock, announce: Announce | None, on_progress: OnProgress | None,
-            runner_factory: Callable[[Any], Any], settings: SearchSettings | None, resumed: bool, jobs: int,
+            runner_factory: Callable[[Any], Any], settings: SearchSettings | None, resumed: bool, jobs: Jobs,
             notes: list[str], look: DecisionOptions | None = None) -> RunResult:
     metric = resolve_metric(record.metric, record.task)
     spent_wall, _ = store.spent(record.id)
@@ -225,7 +231,7 @@ def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Data
         announce(StudyStart(record.name, store.location.display(), dataset.n_rows, dataset.X.shape[1],
                             record.task, record.metric, record.direction, budget, spent_wall, notes, resumed,
                             {"run": "study", "resume": "resuming", "worker": "joining"}.get(
-                                settings.kind if settings else "run", "study")))
+                                settings.kind if settings else "run", "study"), jobs.count, jobs.why))
     # One thread per trial: OpenMP pools spin-wait, and on a shared or busy machine two-thread
     # fits measured 10-17x slower than one-thread fits here. Parallelism comes from --jobs.
     threads = THREADS_PER_TRIAL
@@ -235,8 +241,8 @@ def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Data
     objective.warm_up(_warm_up_configs(space))
     runner = runner_factory(objective)
     with stop_on_signals():
-        if jobs > 1:
-            with WorkerGroup(record.name, store.location.url, jobs - 1, data=str(dataset_path)) as group:
+        if jobs.count > 1:
+            with WorkerGroup(record.name, store.location.url, jobs.count - 1, data=str(dataset_path)) as group:
                 summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
                                  on_progress=on_progress)
                 if summary.exit_code:
@@ -281,6 +287,13 @@ def _warm_up_configs(space: SpaceSpec) -> list[dict[str, Any]]:
     for family in space.kept_families or ["hist_gb"]:
         configs.setdefault(family, space.complete({"family": family}))
     return list(configs.values())
+
+
+def _workers(requested: str | int | None) -> Jobs:
+    """The worker count for ``--jobs``, with the data already loaded in this process (its size caps ``auto``)."""
+    import psutil
+
+    return resolve_jobs(parse_jobs(requested), process_bytes=psutil.Process().memory_info().rss)
 
 
 def _expected_trials(space: SpaceSpec, budget: Budget, jobs: int) -> float | None:

@@ -16,7 +16,7 @@ class WorkerGroup:
     def __init__(self, study: str, store_url: str, n: int, data: str | None = None) -> None:
         self.procs: list[subprocess.Popen[bytes]] = []
         env = {**os.environ, "TUNELAB_STORE": store_url}  # the URL may hold a password: keep it out of argv
-        args = [sys.executable, "-m", "tunelab", "worker", study, "-q"]
+        args = [sys.executable, "-m", "tunelab", "worker", study, "-q", "--jobs", "1"]  # each is one worker
         if data:
             args += ["--data", data]
         for _ in range(n):
