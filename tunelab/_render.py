@@ -148,6 +148,10 @@ def print_detail(d: Any) -> None:
         out.print(table)
     if d.runners_up:
         out.print(f"runners-up: {d.runners_up}")
+    if d.predictions_kept.get("trials"):
+        kept = d.predictions_kept
+        out.print(f"held-out predictions kept for {kept['trials']} trials ({kept['bytes'] / 1e6:.1f} MB)"
+                  + (f"; {d.ensemble}" if d.ensemble else ""))
     drops = [v for v in d.decisions if v["action"] == "drop"]
     for v in drops:
         out.print(f"drop {v['family']}: {v['reason']}")
@@ -204,6 +208,28 @@ def print_importance(record: Any, decisions: Any) -> None:
     if firm:
         out.print(f"act on it: tunelab freeze {record.name} --auto   "
                   f"({len(firm)} decision{'s' if len(firm) > 1 else ''})")
+
+
+def print_export(result: Any) -> None:
+    """What was shipped: the trial (and by which rule) or the ensemble's members, scores and costs."""
+    speed = (f"; predicts 1,000 rows in {result.predict_ms_per_1000:.0f} ms; "
+             f"refit {format_duration(result.refit_seconds)}")
+    if result.members:
+        plan = result.plan
+        out.print(f"wrote {result.path}: an ensemble of {len(result.members)} trials, cross-fitted {result.metric} "
+                  f"{plan['score']:.4f} against {plan['single']:.4f} for the best single trial "
+                  f"(fold noise {plan['noise']:.2g}){speed}; sha256 {result.sha256[:16]}…")
+        for member in result.members:
+            out.print(f"  trial {member['trial']}: weight {member['weight']:.2f}")
+        return
+    rule = {"best": "the best", "one-se": "the cheapest within one standard error of the best",
+            "trial": "as asked"}[result.chosen_by]
+    out.print(f"wrote {result.path}: trial {result.trial} ({result.family}, {rule}), cross-validated "
+              f"{result.metric} {result.score:.4f}{speed}; sha256 {result.sha256[:16]}…")
+    if result.plan is not None:
+        gain = result.plan["gain"]
+        out.print(f"an ensemble would have added {gain:+.4g} (fold noise {result.plan['noise']:.2g}): "
+                  + ("ship it with --ensemble" if gain > 0 else "not worth it"))
 
 
 def print_first_look(study: str, decisions: Any) -> None:

@@ -315,6 +315,14 @@ def export(
     choose: str = typer.Option("best", "--choose", metavar="RULE",
                                help="Which trial to ship: best (the best cross-validated score) or one-se (the "
                                     "cheapest within one standard error of it; `status` shows how many are)."),
+    ensemble: bool | None = typer.Option(None, "--ensemble/--single",
+                                         help="Ship an ensemble of the best trials (weights from ensemble selection "
+                                              "on their held-out predictions), or a single trial. [default: the "
+                                              "ensemble when it beats the best trial by more than its fold noise]"),
+    max_members: int = typer.Option(10, "--max-members", help="Most trials an ensemble may hold."),
+    max_predict_ms: float | None = typer.Option(None, "--max-predict-ms", metavar="MS",
+                                                help="Most milliseconds an ensemble may take to predict 1,000 rows; "
+                                                     "its lightest members are dropped until it fits."),
     store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
@@ -325,14 +333,12 @@ def export(
     from tunelab import _render as r
     from tunelab.ops import export_model
 
-    result = export_model(study, out, store=store, trial=trial, choose_by=choose)
+    result = export_model(study, out, store=store, trial=trial, choose_by=choose, ensemble=ensemble,
+                          max_members=max_members, max_predict_ms=max_predict_ms)
     if json_out:
         r.emit_json(result.to_dict())
         return
-    rule = {"best": "the best", "one-se": "the cheapest within one standard error of the best",
-            "trial": "as asked"}[result.chosen_by]
-    r.out.print(f"wrote {result.path}: trial {result.trial} ({result.family}, {rule}), cross-validated "
-                f"{result.metric} {result.score:.4f}; sha256 {result.sha256[:16]}…")
+    r.print_export(result)
 
 
 @app.command()

@@ -20,7 +20,14 @@ from tunelab.engine._objective import (
 from tunelab.engine._pruning import PRUNING_CHOICES, choose_pruning, make_pruner
 from tunelab.engine._recovery import Recovery, recover, trial_state
 from tunelab.engine._runner import ForkRunner, InProcessRunner, Limits, Outcome
-from tunelab.engine._search import Progress, SearchSettings, SearchSummary, search
+from tunelab.engine._search import (
+    DEFAULT_KEEP_PREDICTIONS,
+    KEEP_PREDICTIONS,
+    Progress,
+    SearchSettings,
+    SearchSummary,
+    search,
+)
 from tunelab.engine._stop import StopRequested, clear_stop, holding, request_stop
 from tunelab.engine._study import SAMPLERS, SearchStudy, make_sampler, open_search_study
 from tunelab.evaluation import (
@@ -37,6 +44,8 @@ from tunelab.evaluation import (
 from tunelab.values import format_duration
 
 __all__ = [
+    "DEFAULT_KEEP_PREDICTIONS",
+    "KEEP_PREDICTIONS",
     "DEFAULT_METRIC", "LARGE_DATA_ROWS", "METRICS", "PRUNING_CHOICES", "ROUNDS_ATTR", "SAMPLERS", "STEPS_PER_FOLD",
     "Budget", "Clock", "CrossValidationObjective", "FakeClock", "ForkRunner", "InProcessRunner", "Limits", "Metric",
     "Objective", "Outcome", "Progress", "PruneSignal", "Recovery", "Report", "SearchSettings", "SearchStudy",

@@ -92,6 +92,9 @@ class TrialResult:
     value: float
     fold_scores: list[float] = field(default_factory=list)
     extras: dict[str, Any] = field(default_factory=dict)
+    # The predictions on each fold's held-out rows (positive-class probability for two classes, one
+    # column per class for more, values for regression), kept for ensemble selection.
+    predictions: list[np.ndarray] | None = None
 
 
 class Objective(Protocol):
@@ -198,6 +201,7 @@ class CrossValidationObjective:
         cap = row_cap(config)
         scores: list[float] = []  # the study's metric, fold by fold
         ranks: list[float] = []  # what the rungs rank by (the metric, or its smooth stand-in)
+        predictions: list[np.ndarray | None] = []  # held-out predictions, fold by fold
         rounds: int | None = None
         started = time.perf_counter()
         try:
@@ -210,11 +214,13 @@ class CrossValidationObjective:
                     held_out = _HeldOut(self.metric, y[test], self.dataset.classes)
                     if fold == 1:
                         first = fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, report)
-                        fitted, rank, rounds = first.score, first.rank, first.rounds
+                        fitted, rank, rounds, output = first.score, first.rank, first.rounds, first.output
                     else:
                         pipeline.fit(X.iloc[train], y[train])
                         fitted, rank = held_out.both(pipeline, X.iloc[test])
+                        output = held_out.predictions(pipeline, X.iloc[test])
                 scores.append(fitted)
+                predictions.append(output)
                 ranks.append(rank)
                 if fold < len(self.folds):
                     report(fold_step(fold), float(np.mean(ranks)))
@@ -228,7 +234,8 @@ class CrossValidationObjective:
         }
         if rounds is not None:
             extras[keys.ROUNDS] = rounds
-        return TrialResult(value=float(np.mean(scores)), fold_scores=scores, extras=extras)
+        kept = [p for p in predictions if p is not None] if all(p is not None for p in predictions) else None
+        return TrialResult(value=float(np.mean(scores)), fold_scores=scores, extras=extras, predictions=kept)
 
 
 def settled_config(config: Mapping[str, Any], rounds: int | None) -> dict[str, Any]:
@@ -251,6 +258,7 @@ class FirstFold:
     score: float
     rounds: int | None = None
     rank: float = math.nan
+    output: np.ndarray | None = None  # the held-out predictions (see ``_HeldOut.predictions``)
 
     def __post_init__(self) -> None:
         if math.isnan(self.rank):
@@ -275,6 +283,13 @@ class _HeldOut:
 
     def rank(self, model: Any, X: Any) -> float:
         return score(self.ranker, self.y, model, X, self.classes)
+
+    def predictions(self, model: Any, X: Any) -> np.ndarray:
+        """What ensembles are built from: the positive class's probability for two classes, a column
+        per class for more (in the model's class order), predicted values for regression."""
+        if hasattr(model, "predict_proba") and len(self.classes):
+            return as_prediction(model.predict_proba(X))
+        return np.asarray(model.predict(X), dtype=np.float32)
 
     def both(self, model: Any, X: Any) -> tuple[float, float]:
         """The metric and the ranking score, from one prediction when they agree."""
@@ -302,7 +317,7 @@ def fit_in_parts(pipeline: Any, X_train: Any, y_train: np.ndarray, X_test: Any, 
         _grow_in_chunks(model, size, Xt_train, y_train, Xt_test, held_out, report)
         if size == "max_iter":
             return best_rounds(model, Xt_test, held_out)
-        return FirstFold(*_scored(held_out, model, Xt_test))
+        return _first(held_out, model, Xt_test)
     if _is_torch_mlp(model):
         live = _watching(model)
         pipeline.set_params(model=live)
@@ -310,15 +325,21 @@ def fit_in_parts(pipeline: Any, X_train: Any, y_train: np.ndarray, X_test: Any, 
         Xt_train = prep.fit_transform(X_train, y_train)
         Xt_test = prep.transform(X_test)
         live.fit(Xt_train, y_train, epoch_callback=_epoch_reporter(live, Xt_test, held_out, report))
-        return FirstFold(*_scored(held_out, live, Xt_test))
+        return _first(held_out, live, Xt_test)
     pipeline.fit(X_train, y_train)
-    return FirstFold(*_scored(held_out, pipeline, X_test))
+    return _first(held_out, pipeline, X_test)
 
 
-def _scored(held_out: _HeldOut, model: Any, X: Any) -> tuple[float, None, float]:
-    """``FirstFold``'s score, rounds (none) and ranking score of a model fitted once."""
+def _first(held_out: _HeldOut, model: Any, X: Any) -> FirstFold:
+    """The first fold of a model fitted once: its score, ranking score and held-out predictions."""
     value, rank = held_out.both(model, X)
-    return value, None, rank
+    return FirstFold(value, None, rank, held_out.predictions(model, X))
+
+
+def as_prediction(proba: np.ndarray) -> np.ndarray:
+    """Class probabilities as kept: the second column alone for two classes, float32."""
+    proba = np.asarray(proba, dtype=np.float32)
+    return proba[:, 1].copy() if proba.ndim == 2 and proba.shape[1] == 2 else proba
 
 
 def best_rounds(model: Any, X_test: Any, held_out: _HeldOut) -> FirstFold:
@@ -346,11 +367,13 @@ def best_rounds(model: Any, X_test: Any, held_out: _HeldOut) -> FirstFold:
         value = score_output(ranker, held_out.y, output, labels)
         if math.isnan(best) or better(ranker, value, best):
             chosen, best, output_at = rounds, value, output
+    kept = None if output_at is None else (as_prediction(output_at) if ranker.needs_proba
+                                            else np.asarray(output_at, dtype=np.float32))
     if ranker is held_out.metric or output_at is None:
-        return FirstFold(best, chosen)
+        return FirstFold(best, chosen, output=kept)
     # The study's metric at the chosen rounds, from the same staged output (labels from probabilities).
     predicted = np.asarray(labels)[np.argmax(output_at, axis=1)]
-    return FirstFold(score_output(held_out.metric, held_out.y, predicted, labels), chosen, best)
+    return FirstFold(score_output(held_out.metric, held_out.y, predicted, labels), chosen, best, kept)
 
 
 def chunk_ends(total: int, parts: int = STEPS_PER_FOLD) -> list[int]:

@@ -28,6 +28,8 @@ from tunelab.space import SpaceSpec
 from tunelab.store import Store, StudyRecord, keys
 
 LOST = "lost"  # the state of a launch another process declared dead
+KEEP_PREDICTIONS = "keep_predictions"  # study setting: how many best trials keep their held-out predictions
+DEFAULT_KEEP_PREDICTIONS = 100
 
 
 @dataclass
@@ -248,6 +250,11 @@ class _Launch:
             except UpdateFinishedTrialError:  # recovered by another worker between the beat and the write
                 self._lost()
                 return LOST
+            if kind == "complete" and outcome.result is not None and outcome.result.predictions is not None:
+                keep = int(self.record.settings.get(KEEP_PREDICTIONS, DEFAULT_KEEP_PREDICTIONS))
+                if keep > 0:
+                    self.store.keep_predictions(self.record, self.trial.number, outcome.result.value,
+                                                outcome.result.predictions, keep=keep)
             self.trial = None
             self.counts[kind] += 1
         if kind == "complete":

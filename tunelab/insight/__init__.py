@@ -3,6 +3,7 @@ whether another stretch of search is worth it, and the HTML report."""
 
 from tunelab.insight._choice import RULES, Choice, Rule, choose
 from tunelab.insight._decisions import DEFAULT_HORIZON, Decisions, StudyEvidence, decide, default_worth
+from tunelab.insight._ensemble import MAX_MEMBERS, EnsemblePlan, plan_ensemble
 from tunelab.insight._evidence import comparable, fold_fit
 from tunelab.insight._families import FamilyVerdict, family_verdicts
 from tunelab.insight._forecast import Forecast, forecast
@@ -39,7 +40,9 @@ __all__ = [
     "Choice",
     "DEFAULT_HORIZON",
     "Decisions",
+    "EnsemblePlan",
     "FAMILY_PARAM",
+    "MAX_MEMBERS",
     "FANOVA_SECONDS",
     "FamilyLine",
     "FamilyVerdict",
@@ -67,6 +70,7 @@ __all__ = [
     "forecast",
     "importance_table",
     "nice_ticks",
+    "plan_ensemble",
     "render_report",
     "space_reasons",
     "trial_chart",

@@ -112,6 +112,7 @@ class ReportData:
     written_at: str = ""
     family_verdicts: Sequence[FamilyVerdict] = field(default_factory=tuple)
     forecast: str = ""  # what another stretch of search is likely to buy, in one line
+    ensemble: str = ""  # what an ensemble of the best trials would add, cross-fitted
 
 
 # ------------------------------------------------------------------------------------ page
@@ -142,6 +143,7 @@ def render_report(data: ReportData) -> str:
         _families(data),
         '<h2 id="outlook">Is more search worth it?</h2>',
         f'<p>{_e(data.forecast)}</p>' if data.forecast else '<p class="quiet">No forecast.</p>',
+        f'<p>{_e(data.ensemble[:1].upper() + data.ensemble[1:])}.</p>' if data.ensemble else "",
         '<h2 id="importance">Which parameters mattered</h2>',
         _importance(data),
         '<h2 id="space">Why the search space looks like this</h2>',

@@ -20,6 +20,7 @@ from tunelab.insight import (
     render_report,
     space_reasons,
 )
+from tunelab.ops._ensemble import ensemble_words
 from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._trials import Phases
 from tunelab.store import TRIAL_STATES, Store, best_of, utc_iso
@@ -74,6 +75,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
         wall, cpu = st.spent(record.id)
         trials = st.trials(record)
         decisions = decisions_for(st, record, options)
+        ensemble = ensemble_words(st, record) if st.predictions_size(record)[0] >= 2 else ""
     counts: dict[str, int] = {s: 0 for s in TRIAL_STATES}
     points: list[ChartPoint] = []
     families: dict[str, dict[str, Any]] = {  # every family searched, tried or not
@@ -111,7 +113,7 @@ def report_data(name: str, *, store: str | None = None, clock: Clock | None = No
         points=points, families=_family_lines(families, maximize),
         importance=importance, importance_note=note, reasons=space_reasons(phases.current),
         phases=[(p.number, p.first_trial, p.reason) for p in phases.records], written_at=utc_iso(clock.now()),
-        family_verdicts=decisions.families, forecast=decisions.forecast_line(),
+        family_verdicts=decisions.families, forecast=decisions.forecast_line(), ensemble=ensemble,
     )
 
 

@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import platform
+import time
 import warnings
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -16,16 +17,14 @@ from tunelab.data import clean_column, load_dataset, read_table
 from tunelab.engine import Clock, SystemClock
 from tunelab.errors import InputError, StudyStateError
 from tunelab.files import write_atomically
-from tunelab.insight import RULES, choose
+from tunelab.insight import MAX_MEMBERS, RULES, EnsemblePlan, choose
 from tunelab.models import (
-    build_pipeline,
-    capped_rows,
     check_columns,
     load_pipeline,
     read_meta,
-    row_cap,
     write_model_file,
 )
+from tunelab.ops._ensemble import ensemble_plan, fit_config, predict_ms, within_predict_limit
 from tunelab.ops._trials import Phases
 from tunelab.store import Store
 from tunelab.values import plain
@@ -40,7 +39,11 @@ class ExportResult:
     metric: str
     score: float
     family: str
-    chosen_by: str = "best"  # "best", "one-se", or "trial" when named
+    chosen_by: str = "best"  # "best", "one-se", "trial" when named, or "ensemble"
+    members: list[dict[str, Any]] = field(default_factory=list)  # an ensemble's trials and weights
+    plan: dict[str, Any] | None = None  # what ensemble selection found, cross-fitted, shipped or not
+    refit_seconds: float = 0.0
+    predict_ms_per_1000: float = 0.0
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -58,22 +61,29 @@ class PredictResult:
 
 
 def export_model(name: str, out: Path, *, store: str | None = None, trial: int | None = None,
-                 choose_by: str = "best", clock: Clock | None = None) -> ExportResult:
-    """Refit the best (or a chosen) trial's pipeline on all rows and write a model file.
+                 choose_by: str = "best", ensemble: bool | None = None, max_members: int = MAX_MEMBERS,
+                 max_predict_ms: float | None = None, clock: Clock | None = None) -> ExportResult:
+    """Refit the best (or a chosen) trial's pipeline, or an ensemble of trials, and write a model file.
 
     ``choose_by`` is the rule that picks the trial when ``trial`` is not given: ``best`` (the best
     cross-validated score) or ``one-se`` (the cheapest within one standard error of it).
+    ``ensemble``: ``None`` ships the ensemble selection picks from the kept predictions when it
+    beats the best single trial by more than its fold noise (cross-fitted), else the single trial;
+    ``True`` ships the ensemble anyway, ``False`` never.  ``max_members`` caps its distinct trials,
+    ``max_predict_ms`` its prediction time per 1,000 rows (the lightest members are dropped).
     """
     clock = clock or SystemClock()
     if out.exists() and out.is_dir():
         raise InputError(f"--out {out} is a folder", "pass a file path such as model.zip")
     if not out.parent.exists():
         raise InputError(f"folder {out.parent} does not exist", "create it, or choose another --out")
+    if choose_by not in RULES:
+        raise InputError(f"unknown rule '{choose_by}' for choosing the trial", f"use one of: {', '.join(RULES)}")
+    if max_members < 1:
+        raise InputError(f"--max-members must be at least 1, got {max_members}", "e.g. --max-members 5")
     with Store.open(store) as st:
         record = st.get_study(name)
         trials = st.trials(record)
-        if choose_by not in RULES:
-            raise InputError(f"unknown rule '{choose_by}' for choosing the trial", f"use one of: {', '.join(RULES)}")
         picked = choose(trials, record.direction, choose_by)
         chosen = picked.chosen if picked is not None else None
         if chosen is None:
@@ -86,25 +96,57 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
                                  f"see the finished trials with `tunelab status {name}`")
             chosen = matches[0]
         dataset = load_dataset(Path(record.data_path), record.target, record.task)
-        config = Phases.of(st, record).config(chosen)
-        pipeline = build_pipeline(config, dataset.roles, {c.name: c.n_unique for c in dataset.columns},
-                                  dataset.task, seed=record.seed, n_threads=1)
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            rows = capped_rows(np.arange(dataset.n_rows), dataset.y, dataset.task, row_cap(config), record.seed)
-            pipeline.fit(dataset.X.iloc[rows], dataset.y[rows])  # the size the search measured
+        phases = Phases.of(st, record)
+        plan = None if trial is not None or ensemble is False else ensemble_plan(st, record, dataset,
+                                                                                max_members=max_members)
+        if ensemble and plan is None:
+            raise StudyStateError(f"study '{name}' keeps too few trials' predictions for an ensemble",
+                                  "it needs two complete trials with kept predictions; export --single")
+        started = time.perf_counter()
+        by_number = {t.number: t for t in trials}
+        if plan is not None and (ensemble or plan.worth_it):
+            configs = [phases.config(by_number[n]) for n, _ in plan.members]
+            fitted = [fit_config(config, dataset, record.seed) for config in configs]
+            model, ms, dropped = within_predict_limit(fitted, [w for _, w in plan.members], dataset, max_predict_ms)
+            members = [(n, float(w), configs[i]) for i, ((n, _), w) in
+                       enumerate(zip(plan.members, _renormalised(plan, dropped))) if i not in dropped]
+            config = members[0][2]
+            ensemble_meta: dict[str, Any] | None = {
+                **plan.to_dict(), "members": [{"trial": n, "weight": w, "config": c} for n, w, c in members],
+                "dropped_for_speed": [plan.members[i][0] for i in dropped], "predict_ms_per_1000": ms}
+        else:
+            config = phases.config(chosen)
+            model = fit_config(config, dataset, record.seed)  # the size the search measured
+            ms, ensemble_meta, members = predict_ms(model, dataset), None, []
+        refit = time.perf_counter() - started
         meta = {
-            "study": record.name, "trial": chosen.number, "metric": record.metric, "direction": record.direction,
-            "cv_score": chosen.value, "fold_scores": list(chosen.fold_scores) or None,
+            "study": record.name, "trial": chosen.number if not members else members[0][0], "metric": record.metric,
+            "direction": record.direction, "cv_score": chosen.value, "fold_scores": list(chosen.fold_scores) or None,
             "task": record.task, "target": record.target, "classes": [plain(c) for c in dataset.classes],
             "columns": list(dataset.X.columns), "dtypes": {c: str(t) for c, t in dataset.X.dtypes.items()},
             "roles": dataset.roles, "config": config, "data_sha256": record.data_sha256,
-            "versions": _versions(),
+            "versions": _versions(), **({"ensemble": ensemble_meta} if ensemble_meta else {}),
         }
-        sha = write_model_file(out, pipeline, meta)
-        st.record_export(record.id, now=clock.now(), path=str(out.resolve()), sha256=sha, trial_number=chosen.number)
-    return ExportResult(record.name, str(out), sha, chosen.number, record.metric, chosen.score,
-                        str(config.get("family", "")), "trial" if trial is not None else choose_by)
+        sha = write_model_file(out, model, meta)
+        shipped = members[0][0] if members else chosen.number
+        st.record_export(record.id, now=clock.now(), path=str(out.resolve()), sha256=sha, trial_number=shipped)
+    how = "ensemble" if members else ("trial" if trial is not None else choose_by)
+    return ExportResult(record.name, str(out), sha, shipped, record.metric, chosen.score,
+                        str(config.get("family", "")), how, [{"trial": n, "weight": w} for n, w, _ in members],
+                        None if plan is None else plan.to_dict(), refit, ms)
+
+
+def _renormalised(plan: EnsemblePlan, dropped: list[int]) -> list[float]:
+    kept = [w for i, (_, w) in enumerate(plan.members) if i not in dropped]
+    total = sum(kept) or 1.0
+    out, k = [], 0
+    for i in range(len(plan.members)):
+        if i in dropped:
+            out.append(0.0)
+        else:
+            out.append(kept[k] / total)
+            k += 1
+    return out
 
 
 def predict_file(model: Path, data: Path, out: Path) -> PredictResult:

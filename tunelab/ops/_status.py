@@ -7,6 +7,7 @@ from typing import Any
 
 from tunelab.engine import choose_pruning
 from tunelab.insight import choose
+from tunelab.ops._ensemble import ensemble_words
 from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._trials import Phases, shown_params
 from tunelab.store import TRIAL_STATES, Store, StudyRecord, TrialRecord, best_of, ranked
@@ -68,6 +69,8 @@ class StudyDetail:
     forecast: dict[str, Any] | None = None
     forecast_line: str = ""
     runners_up: str = ""  # how close the runners-up are to the best (one standard error)
+    predictions_kept: dict[str, int] = field(default_factory=dict)  # trials whose held-out predictions are kept, bytes
+    ensemble: str = ""  # what an ensemble of the kept trials would add, cross-fitted
     within_one_se: list[int] = field(default_factory=list)  # complete trials within one standard error of the best
 
     def to_dict(self) -> dict[str, Any]:
@@ -88,6 +91,8 @@ def study_detail(name: str, store: str | None, top: int = 5,
         record = st.get_study(name)
         decisions = decisions_for(st, record, replace(options, rank_knobs=False))
         choice = choose(st.trials(record), record.direction)
+        kept, size = st.predictions_size(record)
+        ensemble = ensemble_words(st, record) if kept >= 2 else ""
         trials = st.trials(record)
         line = _line(st, record, trials)
         best = ranked(trials, record.direction)
@@ -109,7 +114,8 @@ def study_detail(name: str, store: str | None, top: int = 5,
                            forecast=None if decisions.forecast is None else decisions.forecast.to_dict(),
                            forecast_line=decisions.forecast_line(),
                            runners_up=choice.words(record.metric) if choice else "",
-                           within_one_se=[t.number for t in choice.within] if choice else [])
+                           within_one_se=[t.number for t in choice.within] if choice else [],
+                           predictions_kept={"trials": kept, "bytes": size}, ensemble=ensemble)
 
 
 def _pruning_words(record: StudyRecord) -> str:

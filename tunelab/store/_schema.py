@@ -5,9 +5,9 @@ Timestamps are UTC ISO strings plus epoch seconds for arithmetic; structured val
 
 from __future__ import annotations
 
-from sqlalchemy import Column, Float, ForeignKey, Integer, MetaData, String, Table, Text, UniqueConstraint
+from sqlalchemy import Column, Float, ForeignKey, Integer, LargeBinary, MetaData, String, Table, Text, UniqueConstraint
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2  # 2: out-of-fold predictions (tl_prediction)
 
 metadata = MetaData()
 
@@ -83,4 +83,21 @@ requeues = Table(
     Column("trial_number", Integer, nullable=False),
     Column("created_at", String(40), nullable=False),
     UniqueConstraint("study_id", "trial_number"),
+)
+
+# A complete trial's predictions on the held-out rows of each fold, for ensemble selection: plain
+# little-endian float32 arrays (rows x cols, in the order of the fold's held-out rows), never pickles;
+# the sha256 of the bytes refuses a damaged array.
+predictions = Table(
+    "tl_prediction", metadata,
+    Column("id", Integer, primary_key=True, autoincrement=True),
+    Column("study_id", Integer, ForeignKey("tl_study.id"), nullable=False),
+    Column("trial_number", Integer, nullable=False),
+    Column("fold", Integer, nullable=False),
+    Column("value", Float, nullable=False),  # the trial's cross-validated score, to keep the best K
+    Column("n_rows", Integer, nullable=False),
+    Column("n_cols", Integer, nullable=False),
+    Column("data", LargeBinary, nullable=False),
+    Column("sha256", String(64), nullable=False),
+    UniqueConstraint("study_id", "trial_number", "fold"),
 )

@@ -8,6 +8,7 @@ translated here into :class:`~tunelab.errors.StoreError`.
 from __future__ import annotations
 
 import contextlib
+import hashlib
 import json
 import os
 import socket
@@ -23,6 +24,7 @@ from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 from tunelab.errors import InputError, StoreError, StudyNotFound
 from tunelab.store import _keys as k, _schema as s
 from tunelab.store._location import Location, check_sqlite_file, resolve
+from tunelab.store._migrations import MIGRATIONS
 from tunelab.store._records import TrialRecord, best_of, record_of
 
 BUSY_TIMEOUT_S = 60
@@ -451,6 +453,58 @@ class Store:
         """The study's best complete trial, ``None`` when none is complete."""
         return best_of(self.trials(study), study.direction)
 
+    # ---- out-of-fold predictions ---------------------------------------------------------------
+    def keep_predictions(self, study: StudyRecord, trial_number: int, value: float, folds: list[Any],
+                         *, keep: int) -> None:
+        """Store a complete trial's held-out predictions, fold by fold, and keep only the best ``keep``
+        trials' (one transaction: a crash leaves either the old set or the new one)."""
+        import numpy as np
+
+        rows = []
+        for fold, array in enumerate(folds, start=1):
+            data = np.ascontiguousarray(np.asarray(array, dtype="<f4"))
+            matrix = data.reshape(len(data), -1)
+            payload = matrix.tobytes()
+            rows.append({"study_id": study.id, "trial_number": trial_number, "fold": fold, "value": float(value),
+                         "n_rows": matrix.shape[0], "n_cols": matrix.shape[1], "data": payload,
+                         "sha256": hashlib.sha256(payload).hexdigest()})
+        order = s.predictions.c.value.desc() if study.direction == "maximize" else s.predictions.c.value.asc()
+        with self._translate("store the trial's predictions"), self.engine.begin() as conn:
+            conn.execute(s.predictions.insert(), rows)
+            kept = [n for (n,) in conn.execute(
+                select(s.predictions.c.trial_number).where(s.predictions.c.study_id == study.id)
+                .where(s.predictions.c.fold == 1).order_by(order, s.predictions.c.trial_number).limit(keep))]
+            conn.execute(s.predictions.delete().where(s.predictions.c.study_id == study.id)
+                         .where(s.predictions.c.trial_number.not_in(kept)))
+
+    def predictions(self, study: StudyRecord) -> dict[int, list[Any]]:
+        """Every kept trial's held-out predictions by trial number: one float32 array per fold
+        (rows, or rows x classes).  A damaged array is refused with a store error."""
+        import numpy as np
+
+        out: dict[int, list[Any]] = {}
+        with self._translate("read the predictions"), self.engine.connect() as conn:
+            rows = conn.execute(select(s.predictions).where(s.predictions.c.study_id == study.id)
+                                .order_by(s.predictions.c.trial_number, s.predictions.c.fold)).mappings().all()
+        for row in rows:
+            payload = bytes(row["data"])
+            if hashlib.sha256(payload).hexdigest() != row["sha256"] or \
+                    len(payload) != 4 * row["n_rows"] * row["n_cols"]:
+                raise StoreError(f"the stored predictions of trial {row['trial_number']} (fold {row['fold']}) of "
+                                 f"study '{study.name}' are damaged", "export a single trial with --single, "
+                                 "or run the study again to record them anew")
+            array = np.frombuffer(payload, dtype="<f4").reshape(row["n_rows"], row["n_cols"])
+            out.setdefault(int(row["trial_number"]), []).append(array[:, 0] if row["n_cols"] == 1 else array)
+        return out
+
+    def predictions_size(self, study: StudyRecord) -> tuple[int, int]:
+        """Trials whose predictions are kept, and the bytes they take."""
+        with self._translate("read the predictions"), self.engine.connect() as conn:
+            trials, size = conn.execute(select(func.count(func.distinct(s.predictions.c.trial_number)),
+                                               func.coalesce(func.sum(func.length(s.predictions.c.data)), 0))
+                                        .where(s.predictions.c.study_id == study.id)).one()
+        return int(trials), int(size)
+
     # ---- exports ---------------------------------------------------------------------------
     def record_export(self, study_id: int, *, now: float, path: str, sha256: str, trial_number: int) -> None:
         with self._translate("record the export"), self.engine.begin() as conn:
@@ -465,7 +519,6 @@ class Store:
             return conn.exec_driver_sql("PRAGMA integrity_check").scalar() == "ok"
 
 
-MIGRATIONS: dict[int, Any] = {}  # schema N → callable(conn) bringing it to N + 1; alembic when it grows
 
 _OPTUNA_TABLES = {
     "studies", "version_info", "study_directions", "study_user_attributes", "study_system_attributes",
