@@ -22,7 +22,13 @@ if str(REPO) not in sys.path:  # benchmarks/ is a folder of the repository, not 
     sys.path.insert(0, str(REPO))
 
 from benchmarks import datasets  # noqa: E402
-from benchmarks._scoring import Predictions, score_prediction_file, score_predictions  # noqa: E402
+from benchmarks._scoring import (  # noqa: E402
+    HIGHER_IS_BETTER,
+    METRICS,
+    Predictions,
+    score_prediction_file,
+    score_predictions,
+)
 from benchmarks._summary import (  # noqa: E402
     friedman_p_value,
     mean_ranks,
@@ -275,6 +281,42 @@ def test_regression_rmse_of_a_constant_offset_is_the_offset() -> None:
     assert score_predictions("regression", y, Predictions(np.array([3.0, 4.0, 5.0])))[
         "rmse"
     ] == pytest.approx(2.0)
+
+
+def _random_predictions(task: str, rng: np.random.Generator) -> tuple[pd.Series, Predictions]:
+    n = 60
+    if task == "regression":
+        truth = rng.normal(10.0, 3.0, n)
+        return pd.Series(truth), Predictions(truth + rng.normal(0.0, 2.0, n))
+    classes = ["no", "yes"] if task == "binary" else ["a", "b", "c", "d"]
+    truth = rng.choice(classes, n)
+    proba = rng.dirichlet(np.ones(len(classes)), n)
+    frame = pd.DataFrame(proba, columns=classes).iloc[:, ::-1]  # column order must not matter
+    return pd.Series(truth), Predictions(np.array(classes)[proba.argmax(axis=1)], frame)
+
+
+@pytest.mark.parametrize("task", ["binary", "multiclass", "regression"])
+def test_each_metric_a_user_picks_matches_scikit_learns_metric_function(task: str) -> None:
+    from sklearn import metrics
+
+    truth, predictions = _random_predictions(task, np.random.default_rng(7))
+    scores = score_predictions(task, truth, predictions)
+    assert set(METRICS[task]) <= set(scores)
+    # The reference values: scikit-learn's sklearn.metrics functions, called directly.
+    if task == "regression":
+        assert scores["rmse"] == pytest.approx(metrics.root_mean_squared_error(truth, predictions.values))
+        assert scores["mae"] == pytest.approx(metrics.mean_absolute_error(truth, predictions.values))
+        return
+    proba = predictions.proba[sorted(predictions.proba.columns)]
+    assert scores["accuracy"] == pytest.approx(metrics.accuracy_score(truth, predictions.values))
+    assert scores["log_loss"] == pytest.approx(metrics.log_loss(truth, proba.to_numpy(), labels=list(proba.columns)))
+    if task == "binary":
+        assert scores["roc_auc"] == pytest.approx(metrics.roc_auc_score(truth == "yes", proba["yes"]))
+
+
+def test_every_metric_has_a_direction() -> None:
+    assert {m for pair in METRICS.values() for m in pair} <= set(HIGHER_IS_BETTER)
+    assert [m for m in HIGHER_IS_BETTER if HIGHER_IS_BETTER[m]] == ["roc_auc", "accuracy"]
 
 
 def test_a_predict_output_file_is_scored_by_its_proba_columns(tmp_path: Path) -> None:
