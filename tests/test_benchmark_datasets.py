@@ -366,6 +366,54 @@ def test_tunelab_predictions_file_is_read_by_its_proba_columns(tmp_path: Path) -
     assert predictions.values.tolist() == ["Too Little"]
 
 
+# ------------------------------------------------------------------- summary over seeds
+
+
+def _long(rows: list[tuple[str, int, str, float]]) -> pd.DataFrame:
+    return pd.DataFrame(rows, columns=["dataset", "seed", "method", "score"])
+
+
+def test_seeds_pool_over_those_every_method_ran_and_a_failed_seed_fails_the_table() -> None:
+    from benchmarks._summary import per_seed_table, pool_seeds
+
+    long = _long([("a", 0, "x", 1.0), ("a", 0, "y", 2.0), ("a", 1, "x", 3.0), ("a", 1, "y", 4.0),
+                  ("a", 2, "x", 9.0),  # y has no seed 2 yet: seed 2 is left out for both
+                  ("b", 0, "x", 1.0), ("b", 0, "y", np.nan)])
+    per_seed = per_seed_table(long)
+    assert per_seed.index.tolist() == [("a", 0), ("a", 1), ("b", 0)]
+    pooled = pool_seeds(per_seed)
+    assert pooled.loc["a"].tolist() == [2.0, 3.0]
+    assert pooled.loc["b", "x"] == 1.0 and np.isnan(pooled.loc["b", "y"])
+    with pytest.raises(ValueError, match="more than one run"):
+        per_seed_table(_long([("a", 0, "x", 1.0), ("a", 0, "x", 2.0)]))
+
+
+def test_head_to_head_counts_a_failure_as_a_loss() -> None:
+    from benchmarks._summary import head_to_head
+
+    pooled = pd.DataFrame({"t": [2.0, 1.0, 1.0, np.nan, 5.0, np.nan], "r": [1.0, 2.0, 1.0, 1.0, np.nan, np.nan]})
+    assert head_to_head(pooled, "t", "r") == (2, 1, 2)  # last row: both failed, left out
+
+
+def test_a_gap_to_the_best_default_counts_only_beyond_the_standard_error_of_the_seeds() -> None:
+    from benchmarks._summary import gaps_to_best_default, per_seed_table
+
+    rows = []
+    for seed, (tl, good, bad) in enumerate([(0.80, 0.84, 0.5), (0.82, 0.83, 0.5), (0.81, 0.85, 0.5)]):
+        rows += [("far", seed, "tunelab", tl), ("far", seed, "d1", good), ("far", seed, "d2", bad)]
+    # Per-seed differences 0 and -0.02: mean -0.01 equals its standard error, so not beyond it.
+    rows += [("tie", 0, "tunelab", 1.0), ("tie", 0, "d1", 1.0), ("tie", 0, "d2", 0.0),
+             ("tie", 1, "tunelab", 0.98), ("tie", 1, "d1", 1.0), ("tie", 1, "d2", 0.0)]
+    rows += [("lost", 0, "tunelab", np.nan), ("lost", 0, "d1", 1.0), ("lost", 0, "d2", 0.0)]
+    gaps = gaps_to_best_default(per_seed_table(_long(rows)), "tunelab", ["d1", "d2"])
+    differences = np.array([-0.04, -0.01, -0.04])
+    assert gaps.loc["far", "best_default"] == "d1"
+    assert gaps.loc["far", "gap"] == pytest.approx(differences.mean())
+    assert gaps.loc["far", "spread"] == pytest.approx(differences.std(ddof=1) / math.sqrt(3))
+    assert gaps["below"].to_dict() == {"far": True, "tie": False, "lost": True}
+    assert gaps.loc["lost", "failed"]
+
+
 # ------------------------------------------------------------------- smoke run
 
 
