@@ -414,40 +414,196 @@ def test_a_gap_to_the_best_default_counts_only_beyond_the_standard_error_of_the_
     assert gaps.loc["lost", "failed"]
 
 
-# ------------------------------------------------------------------- smoke run
+# ------------------------------------------------------------------- the halves
+
+
+def test_the_halves_are_disjoint_cover_the_suite_and_are_balanced_by_task() -> None:
+    from benchmarks.suite import DEV_HALF, HELD_HALF
+
+    assert not set(DEV_HALF) & set(HELD_HALF)
+    assert sorted(DEV_HALF + HELD_HALF) == sorted(NAMES)
+    for task in ("binary", "multiclass", "regression"):
+        counts = [sum(datasets.get(n).task == task for n in half) for half in (DEV_HALF, HELD_HALF)]
+        assert abs(counts[0] - counts[1]) <= 1, (task, counts)
+
+
+def test_the_halves_are_those_of_the_seeded_procedure_and_the_docstring_lists_both() -> None:
+    from benchmarks import suite
+
+    assert suite.halves() == (suite.DEV_HALF, suite.HELD_HALF)
+    doc = " ".join(suite.__doc__.split())
+    for title, half in (("Development half (15):", suite.DEV_HALF), ("Held-back half (15):", suite.HELD_HALF)):
+        listed = doc.split(title)[1].split(".")[0]
+        names = {w.strip(",;") for w in listed.split() if not w.startswith("(")}
+        assert names == set(half), title
+
+
+def test_the_half_option_picks_its_tables_and_refuses_a_table_of_the_other_half() -> None:
+    from benchmarks import suite
+
+    assert suite._tables(suite._parse_args(["--half", "held"])) == [n for n in NAMES if n in suite.HELD_HALF]
+    assert suite._tables(suite._parse_args(["--half", "dev", "--datasets", "wage"])) == ["wage"]
+    with pytest.raises(SystemExit, match="olive"):
+        suite._tables(suite._parse_args(["--half", "dev", "--datasets", "olive"]))
+
+
+# ------------------------------------------------------------------- runs per metric
+
+
+def test_a_default_fits_once_scored_under_both_metrics_and_a_search_runs_once_per_metric() -> None:
+    import io
+
+    from benchmarks._outcome import Outcome, Problem
+    from benchmarks._runner import run_suite
+
+    _available("olive")
+    seen: list[tuple[str, str | None]] = []
+
+    def method(name: str):  # predicts every class alike: no training
+        def run(problem: Problem) -> Outcome:
+            seen.append((name, problem.metric))
+            classes = ["Northern Italy", "Sardinia", "Southern Italy"]
+            proba = pd.DataFrame(1 / 3, index=range(len(problem.test_features)), columns=classes)
+            return Outcome(Predictions(np.array(["Southern Italy"] * len(proba)), proba), 0.0)
+        return run
+
+    records = run_suite(["olive"], {"a_default": method("a_default"), "a_search": method("a_search")},
+                        budget_seconds=1.0, budget_text="1s", seed=0, progress=io.StringIO(),
+                        searches=("a_search",))
+    assert seen == [("a_default", None), ("a_search", "accuracy"), ("a_search", "log_loss")]
+    assert [(r["method"], r["metric"], r["searched_metric"]) for r in records] == [
+        ("a_default", "accuracy", None), ("a_default", "log_loss", None),
+        ("a_search", "accuracy", "accuracy"), ("a_search", "log_loss", "log_loss")]
+    assert all(r["seed"] == 0 and r["error"] is None for r in records)
+    assert records[1]["score"] == pytest.approx(math.log(3))  # uniform over 3 classes
+
+
+def test_tunelab_is_told_the_metric_as_a_user_would(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> None:
+    from benchmarks import _tunelab_cli
+    from benchmarks._outcome import Problem
+
+    commands: list[list[str]] = []
+
+    def fake_run(command: list[str], timeout: float, log: list, threads: int) -> float:
+        commands.append(command)
+        if command[1] == "predict":
+            Path(command[-1]).write_text("prediction\n1.0\n")
+        return 1.0
+
+    monkeypatch.setattr(_tunelab_cli, "_run", fake_run)
+    test = pd.DataFrame({"x": [1.0]})
+    for metric in ("mae", None):
+        problem = Problem(name="toy", task="regression", target="y", train=pd.DataFrame(), test_features=test,
+                          train_csv=tmp_path / "train.csv", test_features_csv=tmp_path / "test.csv",
+                          budget_seconds=1.0, budget_text="1s", seed=3, workdir=tmp_path, metric=metric)
+        _tunelab_cli.tunelab_method("tunelab")(problem)
+    runs = [c for c in commands if c[1] == "run"]
+    assert runs[0][-2:] == ["--metric", "mae"] and "--metric" not in runs[1]
+
+
+def test_a_baseline_search_cross_validates_under_the_metric_it_is_given() -> None:
+    import optuna
+
+    from benchmarks._baselines import budgeted_search, cross_validate
+
+    rng = np.random.default_rng(0)
+    features = pd.DataFrame({"x": rng.normal(size=80), "z": rng.normal(size=80)})
+    y = pd.Series(np.where(features["x"] + 0.5 * rng.normal(size=80) > 0, "yes", "no"))
+    ticks = iter(np.arange(0.0, 100.0, 1.0))  # one second per look: only the first trial fits the budget
+    result = budgeted_search(optuna.samplers.RandomSampler(seed=0), features, y, "binary", budget_seconds=0.5,
+                             seed=0, clock=lambda: float(next(ticks)), metric="log_loss")
+    assert result.n_trials == 1
+
+    def score(metric: str) -> float:
+        return cross_validate(result.best_config, features, y, "binary", 0, math.inf, lambda: 0.0, metric)
+
+    assert result.best_cv == pytest.approx(score("log_loss"))
+    assert result.best_cv != pytest.approx(score("roc_auc"))
+
+
+# ------------------------------------------------------------------- smoke run and report
 
 
 @pytest.mark.slow
-def test_baseline_methods_each_score_a_small_dataset_within_a_short_budget() -> None:
+def test_baseline_methods_each_score_the_smallest_table_under_both_metrics_within_a_short_budget() -> None:
     import io
 
     from benchmarks._runner import run_suite
-    from benchmarks.suite import all_methods, render
+    from benchmarks.suite import SEARCHES, all_methods, render
 
-    _available("oj")
+    _available("olive")
     methods = {k: v for k, v in all_methods().items() if k != "tunelab"}
-    records = run_suite(["oj"], methods, budget_seconds=3.0, budget_text="3s", seed=0,
-                        progress=io.StringIO())
-    assert [r["method"] for r in records] == list(methods)
+    records = run_suite(["olive"], methods, budget_seconds=1.0, budget_text="1s", seed=0,
+                        progress=io.StringIO(), searches=SEARCHES)
+    assert [(r["method"], r["metric"]) for r in records] == [(m, k) for m in methods for k in METRICS["multiclass"]]
+    shares = datasets.load("olive")["region"].value_counts(normalize=True)
     for record in records:
         assert record["error"] is None, record["error"]
-        # Better than chance on OJ (ISLR's orange-juice purchase data): common practice, no source.
-        assert 0.5 < record["score"] <= 1.0
-    assert "Friedman test" in render(records)
+        # Better than predicting the class shares: accuracy of the largest class, and log loss equal
+        # to the shares' entropy (analytic, from the definition of log loss).
+        if record["metric"] == "accuracy":
+            assert record["score"] > shares.max()
+        else:
+            assert record["score"] < -(shares * np.log(shares)).sum()
+    report = render(records)
+    assert "Held-back half (this half decides)" in report and "Development half" in report
 
 
-def test_report_still_renders_when_every_method_failed_on_a_dataset() -> None:
-    from benchmarks.suite import render
+def _record(dataset: str, method: str, score: float | None, seed: int = 0, metric: str = "rmse") -> dict[str, object]:
+    return {"dataset": dataset, "method": method, "seed": seed, "task": "regression", "metric": metric,
+            "score": score, "scores": {} if score is None else {metric: score}, "search_seconds": 1.0,
+            "over_budget_seconds": 0.0, "error": None if score else "boom"}
 
-    def record(dataset: str, method: str, score: float | None) -> dict[str, object]:
-        return {"dataset": dataset, "method": method, "metric": "rmse", "score": score,
-                "scores": {} if score is None else {"rmse": score}, "search_seconds": 1.0,
-                "over_budget_seconds": 0.0, "error": None if score else "boom"}
 
-    records = [record("a", m, s) for m, s in [("hgb_default", 2.0), ("tpe", 1.0)]]
-    records += [record("b", m, None) for m in ("hgb_default", "tpe")]
+def test_report_shows_both_halves_and_still_renders_when_every_method_failed_on_a_dataset() -> None:
+    from benchmarks.suite import DECIDES, render
+
+    records = [_record("wage", m, s) for m, s in [("hgb_default", 2.0), ("tpe", 1.0)]]
+    records += [_record("ames", m, None) for m in ("hgb_default", "tpe")]
     report = render(records)
     assert "failed" in report and "1 *" in report
+    assert "Development half (for trying changes): 2 of its 15 tables run" in report
+    assert "Held-back half (this half decides): 0 of its 15 tables run ====\nnot run" in report
+    assert report.count(DECIDES) == 2
+
+
+def test_report_counts_tunelab_against_each_rival_per_metric_and_over_the_half() -> None:
+    from benchmarks.suite import render
+
+    records = []
+    for seed in (0, 1):
+        for dataset, tunelab in (("concrete", 4.0), ("cps1988", 6.0)):
+            for metric in ("rmse", "mae"):
+                records += [_record(dataset, "hgb_default", 5.0, seed, metric),
+                            _record(dataset, "random_search", 5.0 - seed / 10, seed, metric),
+                            _record(dataset, "tpe", 5.5, seed, metric),
+                            _record(dataset, "tunelab", tunelab + seed / 10, seed, metric)]
+    report = render(records)
+    assert report.count("tunelab against random_search: better on 1 of 2 tables (tied 0, worse or failed 1)") == 2
+    # Per-seed differences from hgb_default -1.0 and -1.1: mean -1.05, standard error 0.05.
+    assert "cps1988: 1.05 rmse worse than hgb_default (spread 0.05)" in report
+    assert ("Held-back half, all metrics (table x metric pairs): tunelab better than random_search on 2 of 4, "
+            "tpe on 2 of 4; below the best default beyond the seed spread on 2: cps1988 (rmse), cps1988 (mae)"
+            ) in report
+
+
+def test_combine_pools_raw_files_and_refuses_a_run_twice_or_two_budgets(tmp_path: Path,
+                                                                      capsys: pytest.CaptureFixture[str]) -> None:
+    from benchmarks import suite
+
+    def write(name: str, budget: str, seed: int) -> Path:
+        path = tmp_path / name
+        path.write_text(json.dumps({"budget": budget, "results": [_record("wage", m, 1.0 + seed, seed)
+                                                                  for m in ("hgb_default", "tpe")]}))
+        return path
+
+    first, second = write("a.json", "60s", 0), write("b.json", "60s", 1)
+    assert suite.main(["--combine", str(first), str(second)]) == 0
+    assert "mean over seeds 0, 1" in capsys.readouterr().out
+    with pytest.raises(SystemExit, match="in two files"):
+        suite.main(["--combine", str(first), str(first)])
+    with pytest.raises(SystemExit, match="different budgets"):
+        suite.main(["--combine", str(first), str(write("c.json", "30s", 2))])
 
 
 def test_paired_seed_gains_give_mean_spread_counts_and_the_exact_signed_rank_p_value() -> None:
