@@ -83,12 +83,20 @@ def friedman_p_value(oriented: pd.DataFrame) -> tuple[float, int, int]:
     return float(statistic.pvalue), n, k
 
 
+def never_ran(long: pd.DataFrame) -> pd.DataFrame:
+    """Dataset × method: true where a method has no run at all on a dataset (not even a failed one)."""
+    ran = long.assign(ran=True).pivot_table(index="dataset", columns="method", values="ran", aggfunc="any")
+    return ran.isna().reindex(index=list(dict.fromkeys(long["dataset"])),
+                              columns=list(dict.fromkeys(long["method"])))
+
+
 def per_seed_table(long: pd.DataFrame) -> pd.DataFrame:
     """(dataset, seed) × method table of oriented scores, kept to the seeds every method ran.
 
     ``long`` has one row per run: ``dataset``, ``seed``, ``method`` and ``score`` (oriented,
-    ``NaN`` for a failed run). A (dataset, seed) that some method has no row for is left out,
-    so that every pooled mean is over the same seeds; a failed run stays as ``NaN``.
+    ``NaN`` for a failed run). A (dataset, seed) that a method run on that dataset has no row
+    for is left out, so that every pooled mean is over the same seeds; a failed run stays as
+    ``NaN``, and so does a method never run on the dataset (see :func:`never_ran`).
     """
     keys = ["dataset", "seed", "method"]
     if long.duplicated(keys).any():
@@ -96,7 +104,8 @@ def per_seed_table(long: pd.DataFrame) -> pd.DataFrame:
     table = long.set_index(keys)["score"].unstack("method")
     ran = long.assign(ran=True).set_index(keys)["ran"].unstack("method").notna()
     order = list(dict.fromkeys(long["dataset"]))
-    table = table[ran.all(axis=1)]
+    absent = never_ran(long).reindex(index=ran.index.get_level_values("dataset"), columns=ran.columns)
+    table = table[(ran.to_numpy() | absent.to_numpy()).all(axis=1)]
     return table.reindex(columns=list(dict.fromkeys(long["method"]))).loc[
         [d for d in order if d in table.index.get_level_values("dataset")]
     ]
@@ -176,6 +185,7 @@ __all__ = [
     "head_to_head",
     "mean_ranks",
     "method_summary",
+    "never_ran",
     "normalised_scores",
     "per_seed_table",
     "pool_seeds",

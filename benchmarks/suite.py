@@ -73,6 +73,7 @@ from benchmarks._summary import (
     gaps_to_best_default,
     head_to_head,
     method_summary,
+    never_ran,
     per_seed_table,
     pool_seeds,
 )
@@ -171,28 +172,34 @@ def metric_report(records: list[dict[str, Any]]) -> dict[str, Any]:
     -------
     dict
         ``pooled`` (dataset × method, raw scores, mean over seeds), ``oriented`` (the same,
-        higher is better), ``seeds`` (per dataset, the seeds pooled), ``summary`` (per method:
-        mean rank, wins over the best default, mean normalised score), ``friedman``
-        (p, datasets, methods), ``head_to_head`` (rival -> wins, ties, losses of tunelab) and
-        ``below_default`` (per dataset: best default, gap, spread, seeds, below).
+        higher is better), ``not_run`` (dataset × method, no run at all), ``seeds`` (per
+        dataset, the seeds pooled), ``summary`` (per method: mean rank, wins over the best
+        default, mean normalised score), ``friedman`` (p, datasets, methods), ``head_to_head``
+        (rival -> wins, ties, losses of tunelab, over the tables both ran) and ``below_default``
+        (per table tunelab ran: best default, gap, spread, seeds, below, failed).
     """
     long = _long(records)
     per_seed = per_seed_table(long)
     oriented = pool_seeds(per_seed)
     raw = pool_seeds(long.assign(score=long["raw"]).pipe(per_seed_table))
+    not_run = never_ran(long).reindex(index=oriented.index, columns=oriented.columns)
     seeds = per_seed.index.to_frame(index=False).groupby("dataset", sort=False)["seed"].agg(list)
     defaults = [m for m in DEFAULT_METHODS if m in oriented.columns]
     compared = "tunelab" in oriented.columns
+    below = pd.DataFrame(columns=["best_default", "gap", "spread", "seeds", "below", "failed"])
+    if compared and defaults:
+        ran_tunelab = [d for d in oriented.index if not not_run.loc[d, "tunelab"]]
+        below = gaps_to_best_default(per_seed.loc[ran_tunelab], "tunelab", defaults)
     return {
         "pooled": raw,
         "oriented": oriented,
+        "not_run": not_run,
         "seeds": seeds,
         "summary": method_summary(oriented, defaults),
         "friedman": friedman_p_value(oriented),
-        "head_to_head": {rival: head_to_head(oriented, "tunelab", rival)
+        "head_to_head": {rival: head_to_head(oriented[~(not_run["tunelab"] | not_run[rival])], "tunelab", rival)
                          for rival in RIVALS if compared and rival in oriented.columns},
-        "below_default": gaps_to_best_default(per_seed, "tunelab", defaults) if compared and defaults
-        else pd.DataFrame(columns=["best_default", "gap", "spread", "seeds", "below", "failed"]),
+        "below_default": below,
     }
 
 
@@ -211,6 +218,7 @@ def _render_metric(metric: str, records: list[dict[str, Any]]) -> tuple[list[str
     all_seeds = sorted({s for seeds in report["seeds"] for s in seeds})
     direction = "higher" if HIGHER_IS_BETTER[metric] else "lower"
     shown = pooled.apply(lambda col: col.map(lambda v: "failed" if pd.isna(v) else f"{v:.4g}"))
+    shown = shown.mask(report["not_run"], "not run")
     for dataset, row in oriented.iterrows():
         if row.notna().any():  # idxmax raises on a row where every method failed
             shown.loc[dataset, row.idxmax()] += " *"

@@ -587,6 +587,18 @@ def test_report_counts_tunelab_against_each_rival_per_metric_and_over_the_half()
             ) in report
 
 
+def test_a_method_never_run_on_a_table_shows_as_not_run_and_is_left_out_of_its_comparisons() -> None:
+    from benchmarks.suite import render
+
+    records = [_record("wage", m, v) for m, v in [("hgb_default", 5.0), ("random_search", 4.0), ("tunelab", 3.0)]]
+    records += [_record("wage", m, v, seed=1) for m, v in [("hgb_default", 5.0), ("random_search", 4.0)]]
+    records += [_record("ames", m, v) for m, v in [("hgb_default", 5.0), ("random_search", 4.0)]]
+    report = render(records)
+    assert "not run" in report.split("ames")[1].splitlines()[0]
+    assert "mean over seeds 0\n" in report  # wage's seed 1 lacks tunelab, so only seed 0 is pooled
+    assert "tunelab against random_search: better on 1 of 1 table (tied 0, worse or failed 0)" in report
+
+
 def test_combine_pools_raw_files_and_refuses_a_run_twice_or_two_budgets(tmp_path: Path,
                                                                       capsys: pytest.CaptureFixture[str]) -> None:
     from benchmarks import suite
