@@ -1,12 +1,13 @@
 """Baseline methods: library defaults, random search and plain TPE.
 
 The searches follow one protocol: sample a config from the generic space, score it by
-5-fold cross-validation inside the training part with the task's primary metric, keep the
-best, and when the budget is spent refit the best config on the whole training part.
-The budget is checked before every fold; a trial caught by the deadline mid-way is
-discarded, so a search overshoots by at most one fold fit (recorded in the results). The
-one exception is the first trial, which is always allowed to finish so that a search
-returns a model even when a single 5-fold evaluation takes longer than the budget.
+5-fold cross-validation inside the training part with the metric the run searches under (the
+user's ``--metric``, else the task's default), keep the best, and when the budget is spent
+refit the best config on the whole training part. The budget is checked before every fold;
+a trial caught by the deadline mid-way is discarded, so a search overshoots by at most one
+fold fit (recorded in the results). The one exception is the first trial, which is always
+allowed to finish so that a search returns a model even when a single 5-fold evaluation takes
+longer than the budget.
 Optuna samplers run with their defaults: no priors, no pruning, no warm starts.
 """
 
@@ -87,9 +88,10 @@ def cross_validate(
     seed: int,
     deadline: float,
     clock: Clock,
+    metric: str | None = None,
 ) -> float:
-    """Mean primary metric of ``config`` over 5 seeded folds; raises if the deadline passes."""
-    metric = PRIMARY_METRIC[task]
+    """Mean ``metric`` (default: the task's) of ``config`` over 5 seeded folds; raises if the deadline passes."""
+    metric = metric or PRIMARY_METRIC[task]
     if task == "regression":
         folds = KFold(N_FOLDS, shuffle=True, random_state=seed).split(features)
     else:
@@ -112,9 +114,11 @@ def budgeted_search(
     budget_seconds: float,
     seed: int,
     clock: Clock = time.monotonic,
+    metric: str | None = None,
 ) -> SearchResult:
-    """Ask/evaluate/tell over the generic space until the wall-clock budget is spent."""
-    direction = "maximize" if HIGHER_IS_BETTER[PRIMARY_METRIC[task]] else "minimize"
+    """Ask/evaluate/tell over the generic space under ``metric`` (default: the task's) until the budget is spent."""
+    metric = metric or PRIMARY_METRIC[task]
+    direction = "maximize" if HIGHER_IS_BETTER[metric] else "minimize"
     study = optuna.create_study(direction=direction, sampler=sampler)
     start = clock()
     deadline = start + budget_seconds
@@ -126,7 +130,7 @@ def budgeted_search(
         # every search hands back a model; the overshoot is recorded, not hidden.
         trial_deadline = deadline if result.best_config is not None else math.inf
         try:
-            value = cross_validate(config, features, y, task, seed, trial_deadline, clock)
+            value = cross_validate(config, features, y, task, seed, trial_deadline, clock, metric)
         except _OutOfTime:
             study.tell(trial, state=optuna.trial.TrialState.FAIL)
             break
@@ -173,7 +177,7 @@ def search_method(
         test = prepare_features(problem.test_features)
         search = budgeted_search(
             make_sampler(problem.seed), features, y, problem.task,
-            problem.budget_seconds, problem.seed,
+            problem.budget_seconds, problem.seed, metric=problem.search_metric,
         )
         if search.best_config is None:
             raise RuntimeError(
@@ -195,6 +199,7 @@ def search_method(
             n_trials=search.n_trials,
             curve=curve,
             details={
+                "metric": problem.search_metric,
                 "best_cv": search.best_cv,
                 "best_config": search.best_config,
                 "failed_trials": search.n_failed,

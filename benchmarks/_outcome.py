@@ -14,7 +14,7 @@ from typing import Any
 
 import pandas as pd
 
-from benchmarks._scoring import Predictions
+from benchmarks._scoring import PRIMARY_METRIC, Predictions
 
 
 @dataclass(frozen=True)
@@ -41,6 +41,10 @@ class Problem:
         Seed for every random choice a method makes.
     workdir
         A private scratch directory for this method on this dataset.
+    metric
+        The metric a searching method optimises, as a user would pass ``--metric``; ``None``
+        for a method that fits once whatever the metric (a library default), and then the
+        task's default metric if a method asks (:attr:`search_metric`).
     threads
         Thread cap for BLAS and OpenMP pools, the same for every method (an OpenMP pool of
         2 threads on a shared 2-core machine can run ten times slower than 1 thread).
@@ -60,8 +64,14 @@ class Problem:
     budget_text: str
     seed: int
     workdir: Path
+    metric: str | None = None
     threads: int = 1
     want_curve: bool = False
+
+    @property
+    def search_metric(self) -> str:
+        """The metric to search under: ``metric``, else the task's default (``PRIMARY_METRIC``)."""
+        return self.metric or PRIMARY_METRIC[self.task]
 
 
 @dataclass

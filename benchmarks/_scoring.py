@@ -5,9 +5,11 @@ for classifiers, one probability column per class; the scores below come from
 scikit-learn's metric functions on the held-out test rows. That keeps methods comparable
 even when they use different internals.
 
-Primary metric per task (the one ranked): ROC AUC for binary (higher is better), log loss for
-multiclass (lower is better), RMSE for regression (lower is better). Accuracy is reported
-beside the two classification metrics.
+Every task is scored under the two metrics a user most often picks for it (``METRICS``):
+binary, ROC AUC (higher is better) and log loss (lower); multiclass, accuracy (higher) and log
+loss; regression, RMSE and MAE (both lower). ``score_predictions`` computes all of a task's
+metrics from one set of predictions. ``PRIMARY_METRIC`` is each task's default metric (tunelab's
+own default when ``--metric`` is not given), which the single-metric benchmarks rank by.
 """
 
 from __future__ import annotations
@@ -17,10 +19,15 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-from sklearn.metrics import accuracy_score, log_loss, mean_squared_error, roc_auc_score
+from sklearn.metrics import accuracy_score, log_loss, mean_absolute_error, mean_squared_error, roc_auc_score
 
 PRIMARY_METRIC = {"binary": "roc_auc", "multiclass": "log_loss", "regression": "rmse"}
-HIGHER_IS_BETTER = {"roc_auc": True, "log_loss": False, "rmse": False, "accuracy": True}
+METRICS = {
+    "binary": ("roc_auc", "log_loss"),
+    "multiclass": ("accuracy", "log_loss"),
+    "regression": ("rmse", "mae"),
+}
+HIGHER_IS_BETTER = {"roc_auc": True, "log_loss": False, "rmse": False, "accuracy": True, "mae": False}
 
 
 @dataclass(frozen=True)
@@ -46,13 +53,15 @@ def score_predictions(task: str, y_true: pd.Series, predictions: Predictions) ->
     Returns
     -------
     dict
-        The primary metric of ``task`` under its name (see ``PRIMARY_METRIC``), plus
-        ``accuracy`` for classification.
+        Every metric of ``task`` (``METRICS``) under its name, plus ``accuracy`` for binary
+        classification: scikit-learn's ``roc_auc_score``, ``log_loss``, ``accuracy_score``,
+        ``mean_absolute_error`` and the square root of ``mean_squared_error``.
     """
     if task == "regression":
         truth = np.asarray(y_true, dtype=float)
-        rmse = float(np.sqrt(mean_squared_error(truth, np.asarray(predictions.values, float))))
-        return {"rmse": rmse}
+        values = np.asarray(predictions.values, dtype=float)
+        return {"rmse": float(np.sqrt(mean_squared_error(truth, values))),
+                "mae": float(mean_absolute_error(truth, values))}
     if predictions.proba is None:
         raise ValueError("a classification method must return class probabilities")
     truth = np.asarray(y_true).astype(str)
@@ -67,8 +76,7 @@ def score_predictions(task: str, y_true: pd.Series, predictions: Predictions) ->
         # AUC of the last class in sorted order; with its own probability column the AUC does
         # not depend on which of the two classes is called positive.
         result["roc_auc"] = float(roc_auc_score(truth == classes[-1], proba[:, -1]))
-    else:
-        result["log_loss"] = float(log_loss(truth, proba, labels=classes))
+    result["log_loss"] = float(log_loss(truth, proba, labels=classes))
     return result
 
 
@@ -88,4 +96,5 @@ def orient(metric: str, value: float) -> float:
     return value if HIGHER_IS_BETTER[metric] else -value
 
 
-__all__ = ["HIGHER_IS_BETTER", "PRIMARY_METRIC", "Predictions", "orient", "score_prediction_file", "score_predictions"]
+__all__ = ["HIGHER_IS_BETTER", "METRICS", "PRIMARY_METRIC", "Predictions", "orient", "score_prediction_file",
+           "score_predictions"]

@@ -2,12 +2,13 @@
 
 ::
 
-    tunelab run TRAIN.csv --target COL --budget 60s --store STORE.db --study NAME --seed 0 -q
+    tunelab run TRAIN.csv --target COL --budget 60s --store STORE.db --study NAME --seed 0 -q [--metric M]
     tunelab export NAME --store STORE.db --out MODEL.zip
     tunelab predict MODEL.zip TEST.csv --out PREDS.csv
 
-``run`` gets the budget; ``export`` (refit of the best config) and ``predict`` are timed apart,
-like the refit of the baseline searches. The predictions file must hold a ``prediction``
+``run`` gets the budget, and ``--metric`` when the run searches under a metric a user picked;
+``export`` (refit of the best config) and ``predict`` are timed apart, like the refit of the
+baseline searches. The predictions file must hold a ``prediction``
 column and, for classifiers, one ``proba_<class>`` column per class. The benchmark scores it
 itself; nothing tunelab prints is used as a score.
 """
@@ -109,10 +110,11 @@ def tunelab_method(executable: str | None = None) -> Callable[[Problem], Outcome
         grace = 2 * problem.budget_seconds + 300
         log: list[dict[str, object]] = []
         try:
+            metric = ["--metric", problem.metric] if problem.metric else []
             search = _run(
                 [exe, "run", str(problem.train_csv), "--target", problem.target,
                  "--budget", problem.budget_text, "--store", str(store), "--study", study,
-                 "--seed", str(problem.seed), "-q"],
+                 "--seed", str(problem.seed), "-q", *metric],
                 grace, log, problem.threads,
             )
             refit = _run(
