@@ -15,11 +15,13 @@ itself; nothing tunelab prints is used as a score.
 
 from __future__ import annotations
 
+import json
 import os
 import shutil
 import subprocess
 import sys
 import time
+import zipfile
 from collections.abc import Callable
 from pathlib import Path
 
@@ -114,11 +116,11 @@ def tunelab_method(executable: str | None = None) -> Callable[[Problem], Outcome
             search = _run(
                 [exe, "run", str(problem.train_csv), "--target", problem.target,
                  "--budget", problem.budget_text, "--store", str(store), "--study", study,
-                 "--seed", str(problem.seed), "-q", *metric],
+                 "--seed", str(problem.seed), "-q", "--jobs", "1", *metric],  # one core, as every method
                 grace, log, problem.threads,
             )
             refit = _run(
-                [exe, "export", study, "--store", str(store), "--out", str(model)],
+                [exe, "export", study, "--store", str(store), "--out", str(model), "--single"],
                 grace, log, problem.threads,
             )
             _run([exe, "predict", str(model), str(problem.test_features_csv), "--out",
@@ -144,4 +146,46 @@ def tunelab_method(executable: str | None = None) -> Callable[[Problem], Outcome
     return run
 
 
-__all__ = ["CommandFailed", "default_executable", "read_predictions", "tunelab_method"]
+def tunelab_ensemble_method(executable: str | None = None) -> Callable[[Problem], Outcome]:
+    """The same study as the ``tunelab`` arm, shipped by ``export``'s default: the ensemble selection
+    picks where it beats the best trial by more than its fold noise, else that trial (``--single``
+    is what the ``tunelab`` arm ships).
+
+    It searches nothing itself: it reads the store the ``tunelab`` arm left beside its own folder
+    (that arm runs first), so the two arms differ only in what ``export`` ships.  The export time,
+    the prediction time and the store's kept predictions are reported beside the score.
+    """
+
+    def run(problem: Problem) -> Outcome:
+        exe = executable or default_executable()
+        sibling = problem.workdir.parent / f"tunelab-{problem.metric}" if problem.metric else \
+            problem.workdir.parent / "tunelab"
+        store = sibling / "store.db"
+        if not store.exists():
+            raise CommandFailed(f"the tunelab arm left no study at {store}")
+        study = f"bench-{problem.name}"
+        model, preds = problem.workdir / "model.zip", problem.workdir / "preds.csv"
+        grace = 2 * problem.budget_seconds + 300
+        log: list[dict[str, object]] = []
+        try:
+            refit = _run([exe, "export", study, "--store", str(store), "--out", str(model)],
+                         grace, log, problem.threads)  # export's default: the ensemble where it is worth it
+            with zipfile.ZipFile(model) as archive:
+                shipped = json.loads(archive.read("meta.json")).get("ensemble", {})
+            predict = _run([exe, "predict", str(model), str(problem.test_features_csv), "--out", str(preds)],
+                           grace, log, problem.threads)
+            predictions = read_predictions(preds, problem.task)
+        except (CommandFailed, ValueError) as exc:
+            raise CommandFailed(str(exc), log) from exc
+        return Outcome(predictions=predictions, search_seconds=0.0, refit_seconds=refit, curve=[],
+                       details={"commands": log, "predict_seconds": predict, "model_bytes": model.stat().st_size,
+                                "members": [{"trial": m["trial"], "weight": m["weight"]}
+                                            for m in shipped.get("members", [])],
+                                "cross_fitted": {k: shipped.get(k) for k in ("score", "single", "gain", "noise")},
+                                "predict_ms_per_1000": shipped.get("predict_ms_per_1000"),
+                                "store_bytes": store.stat().st_size})
+
+    return run
+
+
+__all__ = ["CommandFailed", "default_executable", "read_predictions", "tunelab_ensemble_method", "tunelab_method"]

@@ -77,11 +77,11 @@ from benchmarks._summary import (
     per_seed_table,
     pool_seeds,
 )
-from benchmarks._tunelab_cli import tunelab_method
+from benchmarks._tunelab_cli import tunelab_ensemble_method, tunelab_method
 
 DEFAULT_METHODS = ["hgb_default", "rf_default", "linear_default"]
 # Methods that search under a metric, so run once per metric; the defaults fit once.
-SEARCHES = ("random_search", "tpe", "tunelab")
+SEARCHES = ("random_search", "tpe", "tunelab", "tunelab_ensemble")
 # What tunelab is compared with head to head.
 RIVALS = ("random_search", "tpe")
 RESULTS_DIR = Path(__file__).resolve().parent / "results"
@@ -150,6 +150,8 @@ def all_methods(tunelab_executable: str | None = None) -> dict[str, Method]:
         "random_search": search_method(random_sampler),
         "tpe": search_method(tpe_sampler),
         "tunelab": tunelab_method(tunelab_executable),
+        # The tunelab arm's study shipped by export's default (an ensemble where it is worth it).
+        "tunelab_ensemble": tunelab_ensemble_method(tunelab_executable),
     }
 
 
