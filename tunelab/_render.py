@@ -294,6 +294,9 @@ def print_profile(report: Any) -> None:
     out.print(table)
     for note in space.get("notes", []):
         out.print(f"• {note}")
+    if report.portfolio:
+        tried = ", ".join(f"{name} ({config.get('family', '')})" for name, config in report.portfolio)
+        out.print(f"run tries first {len(report.portfolio)} configurations of the portfolio: {tried}")
     if report.expected_trials is not None:
         box = format_duration(report.budget_seconds) if report.budget_seconds else "the reference 10m"
         out.print(f"about {report.expected_trials:.0f} trials expected in {box} with {report.workers} "

@@ -70,6 +70,7 @@ def run(data: str | Path, target: str, *, budget: Duration | None = None, trials
         cpu_budget: Duration | None = None, metric: str | None = None, task: str | None = None,
         study: str | None = None, store: str | None = None, seed: int = 0, space: str | Path | None = None,
         pruning: str = "auto", jobs: str | int | None = None, learn_from: Sequence[str] = (), learn_nearest: int = 0,
+        portfolio: bool = True, portfolio_file: str | Path | None = None,
         horizon: Duration = "10m", worth: float | None = None,
         on_progress: Callable[[Progress], None] | None = None) -> RunResult:
     """Profile a data file, build its search space and search it within a budget (``tunelab run``).
@@ -86,7 +87,8 @@ def run(data: str | Path, target: str, *, budget: Duration | None = None, trials
     box = Budget(wall, seconds(cpu_budget, "--cpu-budget") if cpu_budget is not None else None, trials)
     request = RunRequest(data=Path(data), target=target, budget=box, store=store, study=study, task=task,
                          metric=metric, seed=seed, space_file=Path(space) if space else None, pruning=pruning,
-                         jobs=jobs, learn_from=tuple(learn_from), learn_nearest=learn_nearest)
+                         jobs=jobs, learn_from=tuple(learn_from), learn_nearest=learn_nearest, portfolio=portfolio,
+                         portfolio_file=Path(portfolio_file) if portfolio_file else None)
     return run_study(request, on_progress=on_progress, look=decision_options(horizon, worth))
 
 

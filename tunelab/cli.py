@@ -179,6 +179,12 @@ def run(
     nearest: int = typer.Option(0, "--learn-nearest", metavar="K", min=0,
                                 help="Also learn from the K earlier studies in the store (same kind of task) whose "
                                      "data looks most alike by meta-features; their best configurations run first."),
+    no_portfolio: bool = typer.Option(False, "--no-portfolio",
+                                      help="Do not start from the shipped portfolio (configurations chosen offline to "
+                                           "do well together across many open datasets, which otherwise run first)."),
+    portfolio_file: Path | None = typer.Option(None, "--portfolio", metavar="FILE",
+                                               help="A rebuilt portfolio to start from instead of the shipped one "
+                                                    "(benchmarks/build_portfolio.py writes one)."),
     seed: int = SeedOpt,
     horizon: str = HorizonOpt,
     worth: str | None = WorthOpt,
@@ -205,7 +211,8 @@ def run(
     box = Budget(wall, parse_duration(cpu_budget, "--cpu-budget") if cpu_budget else None, trials)
     request = RunRequest(data=data, target=target, budget=box, store=store, study=study, task=task, metric=metric,
                          seed=seed, space_file=space, pruning=pruning, jobs=jobs,
-                         learn_from=tuple(learn or ()), learn_nearest=nearest)
+                         learn_from=tuple(learn or ()), learn_nearest=nearest, portfolio=not no_portfolio,
+                         portfolio_file=portfolio_file)
     announce, progress, close = _progress_hooks({}, quiet or json_out)
     try:
         result = run_study(request, announce=announce, on_progress=progress, settings=_settings(ctx), look=look)
@@ -373,6 +380,9 @@ def profile(
                                                                           "(edit it, then pass it to run --space)."),
     seed: int = SeedOpt,
     jobs: str = JobsOpt,
+    no_portfolio: bool = typer.Option(False, "--no-portfolio", help="Leave the shipped portfolio out, as run would."),
+    portfolio_file: Path | None = typer.Option(None, "--portfolio", metavar="FILE",
+                                               help="A rebuilt portfolio, as run --portfolio would use."),
     store: str | None = StoreOpt,
     json_out: bool = JsonOpt,
 ) -> None:
@@ -389,7 +399,8 @@ def profile(
     from tunelab.ops import profile_data, similar_studies
 
     seconds = parse_duration(budget) if budget else None
-    report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed, jobs=jobs)
+    report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed, jobs=jobs,
+                          portfolio=not no_portfolio, portfolio_file=portfolio_file)
     similar = similar_studies(store, similarity_vector(report.meta), report.task)
     if write_space is not None:
         from tunelab.files import write_atomically

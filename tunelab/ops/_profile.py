@@ -19,6 +19,7 @@ from tunelab.evaluation import resolve_metric
 from tunelab.facts import DataFacts, MetaFeatures, compute_metafeatures, data_facts
 from tunelab.models import ONE_HOT_MAX_CARDINALITY
 from tunelab.ops._jobs import parse_jobs, resolve_jobs
+from tunelab.ops._portfolio import portfolio_starts
 from tunelab.probes import probe_transforms
 from tunelab.space import REFERENCE_BUDGET_S, SpaceSpec, build_space
 from tunelab.values import plain
@@ -102,6 +103,7 @@ class ProfileReport:
     seconds: float
     workers: int = 1
     expected_trials: float | None = None
+    portfolio: tuple[tuple[str, dict[str, Any]], ...] = ()  # the portfolio configurations run would try first
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready values, for ``profile --json``."""
@@ -114,6 +116,7 @@ class ProfileReport:
             "budget_seconds": self.budget_seconds,
             "workers": self.workers,
             "expected_trials": self.expected_trials,
+            "portfolio": [{"member": name, "config": config} for name, config in self.portfolio],
             "notes": list(self.notes),
             "seconds": self.seconds,
         }
@@ -175,7 +178,8 @@ def built_space(dataset: Dataset, *, budget_seconds: float | None, metric: str |
 
 def profile_data(path: str | Path, target: str, task: str | None = None, *,
                  budget_seconds: float | None = None, metric: str | None = None, seed: int = 0,
-                 jobs: str | int | None = None) -> ProfileReport:
+                 jobs: str | int | None = None, portfolio: bool = True,
+                 portfolio_file: Path | None = None) -> ProfileReport:
     """Load a data file, describe it, and build the search space ``run`` would use.
 
     Parameters
@@ -219,9 +223,11 @@ def profile_data(path: str | Path, target: str, task: str | None = None, *,
     expected = None
     if space.trial_seconds and (budget_seconds or REFERENCE_BUDGET_S):
         expected = round(workers * (budget_seconds or REFERENCE_BUDGET_S) / space.trial_seconds, 1)
+    room = None if expected is None else max(2, int(expected // 3))
+    starts = portfolio_starts(space, dataset, use=portfolio, path=portfolio_file, limit=room)
     return ProfileReport(str(path), target, dataset.task, dataset.n_rows, columns, tuple(dataset.classes), meta,
                          space, budget_seconds, tuple(dataset.notes), time.perf_counter() - started, workers,
-                         expected)
+                         expected, tuple(starts.configs))
 
 
 def _resident_bytes() -> int:

@@ -37,6 +37,7 @@ from tunelab.models import FAMILIES, preload
 from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._jobs import Jobs, parse_jobs, resolve_jobs
 from tunelab.ops._learn import LEARNED_ATTR, SIMILARITY_KEY, learn_from, nearest_studies
+from tunelab.ops._portfolio import portfolio_starts
 from tunelab.ops._profile import profile_facts, profile_metafeatures
 from tunelab.ops._signals import stop_on_signals
 from tunelab.ops._workers import WorkerGroup
@@ -65,6 +66,8 @@ class RunRequest:
     jobs: str | int | None = None  # worker processes: a number, auto, or None for TUNELAB_JOBS else auto
     learn_from: tuple[str, ...] = ()  # earlier studies in the same store whose best configs run first
     learn_nearest: int = 0  # also learn from this many earlier studies whose data looks most alike
+    portfolio: bool = True  # queue the shipped portfolio's configurations (after learned ones, before priors)
+    portfolio_file: Path | None = None  # a rebuilt portfolio to use instead of the shipped one
 
 
 @dataclass
@@ -143,6 +146,10 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
         nearest = nearest_studies(store, similarity, dataset.task, request.learn_nearest) \
             if request.learn_nearest else None
         learned = learn_from(store, list(request.learn_from), space, dataset.task, nearest)
+        # Warm starts take at most a third of the trials the budget is expected to finish.
+        room = None if expected is None else max(2, int(expected // 3)) - len(learned.configs)
+        shipped = portfolio_starts(space, dataset, use=request.portfolio, path=request.portfolio_file,
+                                   limit=None if room is None else max(0, room))
         record = store.create_study(
             name=name, now=clock.now(), data_path=str(request.data.resolve()),
             data_sha256=file_sha256(request.data), fingerprint=dataset.fingerprint, target=request.target,
@@ -158,13 +165,15 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
             study = open_search_study(store, record, launch_number=0, create=True)
             for source, config in learned.configs:
                 study.queue(config, **{keys.WARM_START: True, LEARNED_ATTR: source})
+            for member, config in shipped.configs:
+                study.queue(config, **{keys.WARM_START: "portfolio", keys.PORTFOLIO_MEMBER: member})
             for start in space.warm_starts:
                 study.queue(start, **{keys.WARM_START: True})
         with store.guard("run the study", name):
             return _launch(store, record, study, dataset, space, request.budget, dataset_path=request.data.resolve(),
                            clock=clock, announce=announce,
                            on_progress=on_progress, runner_factory=runner_factory, settings=settings, resumed=False,
-                           jobs=workers, notes=[*dataset.notes, *learned.notes], look=look)
+                           jobs=workers, notes=[*dataset.notes, *learned.notes, *shipped.notes], look=look)
 
 
 def resume_study(name: str, *, store: str | None = None, extend_seconds: float = 0.0, extend_trials: int = 0,

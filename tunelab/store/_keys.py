@@ -13,6 +13,7 @@ STATE = "tl_state"  # "interrupted" or "failed": what optuna's FAIL state stood 
 RETRY_OF = "tl_retry_of"  # number of the interrupted trial whose config this one runs again
 WARM_START = "tl_warm_start"  # queued before the search: a prior, a learned or a portfolio config
 LEARNED_FROM = "tl_learned_from"  # the earlier study a learned config came from
+PORTFOLIO_MEMBER = "tl_portfolio_member"  # the shipped portfolio member a config came from (WARM_START = "portfolio")
 
 # Results: written when the trial ends.
 FOLD_SCORES = "fold_scores"  # the metric on each fold finished, in fold order
@@ -30,5 +31,5 @@ FAILED = "failed"
 
 __all__ = [
     "CPU_SECONDS", "ERROR", "FAILED", "FIDELITY", "FIT_SECONDS", "FOLD_SCORES", "FOLD_STD", "INTERRUPTED",
-    "LAUNCH", "LEARNED_FROM", "PHASE", "RETRY_OF", "ROUNDS", "SECONDS", "STATE", "WARM_START",
+    "LAUNCH", "LEARNED_FROM", "PHASE", "PORTFOLIO_MEMBER", "RETRY_OF", "ROUNDS", "SECONDS", "STATE", "WARM_START",
 ]
