@@ -242,3 +242,33 @@ def test_every_candidate_of_the_full_build_is_a_valid_configuration() -> None:
                     assert 1 <= config[f"{member.family}.{name}"] <= 1500
             model = build_pipeline(config, roles, {"colour": 3}, task).named_steps["model"]
             clone(model)._validate_params()  # scikit-learn's own check of every parameter's type and range
+
+
+# --------------------------------------------------------------------------- the leave-one-out report
+
+
+def _eval_row(name: str, seed: int, warm: float | None, cold: float, budget: str = "60s",
+              metric: str = "roc_auc") -> dict:
+    return {"dataset": name, "task": "binary", "metric": metric, "seed": seed, "portfolio": [],
+            "runs": {budget: {"warm": {"score": warm}, "cold": {"score": cold}}}}
+
+
+def test_eval_counts_wins_and_judges_60s_by_the_seed_spread() -> None:
+    from benchmarks import portfolio_eval as pe
+
+    assert pe.budget_args("10t") == ["--trials", "10"] and pe.budget_args("20s") == ["--budget", "20s"]
+    # Two tables, two seeds: warm wins t1 (AUC), loses t2 (a loss metric) by a little, noisily.
+    rows = [_eval_row("t1", 0, 0.82, 0.80), _eval_row("t1", 1, 0.81, 0.80),
+            _eval_row("t2", 0, 0.51, 0.50, metric="log_loss"), _eval_row("t2", 1, 0.49, 0.50, metric="log_loss")]
+    summary = pe.summarise(rows, "60s")
+    assert (summary["wins"], summary["ties"], summary["losses"]) == (1, 1, 0)  # t2 pools to a tie
+    assert summary["below_beyond_spread"] == []
+    assert summary["target_met"]
+    # A clear loss on every seed is worse beyond the spread.
+    worse = [_eval_row(t, s, 0.70 + 0.001 * s, 0.80) for t in ("t1", "t2") for s in (0, 1)]
+    summary = pe.summarise(worse, "60s")
+    assert summary["below_beyond_spread"] == ["t1", "t2"] and not summary["target_met"]
+    # At 10 trials the target is the share of wins; a failed warm run loses.
+    rows = [_eval_row(t, 0, w, 0.5, budget="10t") for t, w in (("a", 0.6), ("b", 0.6), ("c", None))]
+    summary = pe.summarise(rows, "10t")
+    assert summary["wins"] == 2 and summary["losses"] == 1 and not summary["target_met"]
