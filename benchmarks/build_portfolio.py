@@ -541,6 +541,7 @@ def _score_tables(tables: list[Table], candidates: list[Member], matrix: dict[st
     if done:
         print(f"reusing {len(done)} table(s) already in {path}")
     expected_left = sum(estimate_seconds({t.name: shapes[t.name]}, candidates) for t in pending)
+    expected_all = expected_left
     spent = 0.0
     started = time.perf_counter()
 
@@ -559,16 +560,18 @@ def _score_tables(tables: list[Table], candidates: list[Member], matrix: dict[st
     if jobs <= 1:
         for table in pending:
             keep(evaluate_table(table, candidates, seed=seed, say=print))
-        return
-    import multiprocessing as mp
+    else:
+        import multiprocessing as mp
 
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=mp.get_context("fork")) as pool:
-        futures = [pool.submit(evaluate_table, table, candidates, seed=seed) for table in pending]
-        for future in as_completed(futures):
-            row = future.result()
-            print(f"[{row['name']}] {row['task']}, {row['rows']} rows x {row['columns']} columns"
-                  + (f", {len(row['errors'])} failed" if row["errors"] else ""), flush=True)
-            keep(row)
+        with ProcessPoolExecutor(max_workers=jobs, mp_context=mp.get_context("fork")) as pool:
+            futures = [pool.submit(evaluate_table, table, candidates, seed=seed) for table in pending]
+            for future in as_completed(futures):
+                row = future.result()
+                print(f"[{row['name']}] {row['task']}, {row['rows']} rows x {row['columns']} columns"
+                      + (f", {len(row['errors'])} failed" if row["errors"] else ""), flush=True)
+                keep(row)
+    print(f"scored {len(pending)} table(s) in {_hours(time.perf_counter() - started)} "
+          f"(expected {_hours(expected_all / jobs)})")
 
 
 def _print_choice(choice: Choice, out: Path) -> None:
@@ -614,10 +617,15 @@ def main(argv: list[str] | None = None) -> int:
     matrix_path = args.matrix or (QUICK_DIR / "matrix.json.gz" if limited else MATRIX_FILE)
     exclude = _names(args.exclude)
     if exclude or args.greedy_only:
+        if not matrix_path.exists():
+            parser.error(f"no score matrix at {matrix_path}: score the tables first (without --exclude/--greedy-only)")
         matrix = load_matrix(matrix_path)
         out = args.out or (ROOT / "benchmarks" / "results" / f"portfolio-without-{'-'.join(exclude)}.json"
                            if exclude else QUICK_DIR / "portfolio.json" if limited else SHIPPED)
-        choice = write_portfolio(matrix, out, args.k, exclude)
+        try:
+            choice = write_portfolio(matrix, out, args.k, exclude)
+        except KeyError as exc:
+            parser.error(str(exc.args[0]))
         _print_choice(choice, out)
         return 0
 
@@ -651,12 +659,13 @@ def main(argv: list[str] | None = None) -> int:
         if same:
             stored["datasets"] = [r for r in stored["datasets"] if r["name"] in set(names)]
             matrix = stored
+            if stored["datasets"] and stored.get("tunelab_commit") != tunelab_commit():
+                print(f"note: the stored tables were scored at {stored.get('tunelab_commit')}, which the "
+                      f"matrix keeps; this checkout is {tunelab_commit()} (--fresh scores every table again)")
     if matrix is None:
         corpus_sha = file_sha256(datasets.CORPUS_FILE)
         matrix = new_matrix(candidates, seed=args.seed, max_rows=max_rows, corpus_sha256=corpus_sha)
-    began = time.perf_counter()
     _score_tables(tables, candidates, matrix, matrix_path, args.seed, jobs, shapes)
-    print(f"scored in {_hours(time.perf_counter() - began)} (expected {_hours(one_core / jobs)})")
     size = save_matrix(matrix, matrix_path)
     print(f"matrix: {matrix_path} ({size / 1000:.1f} KB" + (", over the 50 KB a record folder may hold)"
                                                             if size > STORED_LIMIT else ")"))
