@@ -26,7 +26,8 @@ from tunelab.ops._ship import ExportResult, PredictResult, export_model, predict
 from tunelab.ops._status import StudyDetail, StudyLine, TrialLine, list_studies, study_detail
 
 __all__ = [
-    "DecisionOptions", "ExportResult", "PortfolioStarts", "data_shape", "portfolio_starts", "FreezeResult", "Neighbour", "PredictResult", "ProfileReport", "ReportResult",
+    "DecisionOptions", "ExportResult", "FreezeResult", "Neighbour", "PortfolioStarts", "PredictResult",
+    "ProfileReport", "ReportResult", "data_shape", "portfolio_starts",
     "RunRequest", "RunResult", "StudyDetail", "StudyLine", "StudyStart", "TrialLine", "create_objective_study",
     "decisions_for", "default_report_path", "export_model", "freeze_parameters", "join_objective_study",
     "list_studies", "predict_file", "profile_data", "report_data", "resume_study", "run_objective_study",
