@@ -28,6 +28,12 @@ step                        value reported
 ==========================  ========================================================
 
 Families whose fit cannot be cut into parts (linear models, k-NN, SVM) first report at step 3.
+
+Rows as a fidelity (a study with ``row_shares``, see ``tunelab.evaluation``'s row ladder) gives
+steps 1 and 2 another meaning: the first fold *fully fitted on 1/9, then 1/3 of its training rows*
+(nested, stratified samples), scored on all of its held-out rows.  Step 3 and on are as above, on
+every row.  Every family reports there and is compared with every other, as from step 3 on; the
+thirds of training are then not reported (they would need steps of their own).
 Because step numbers count work, a pruner's rungs placed at steps 1, 3, 6 mean "a third of a
 fold, one fold, two folds" for every family (the default rungs go on after every fold).  How far a third of the
 training takes a model along its learning curve differs between families (a third of a forest's trees is nearly the
@@ -51,7 +57,16 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
-from tunelab.evaluation import Metric, better, make_folds, ranking_metric, score, score_output
+from tunelab.evaluation import (
+    Metric,
+    better,
+    make_folds,
+    nested_samples,
+    ranking_metric,
+    score,
+    score_output,
+    share_words,
+)
 from tunelab.store import keys
 
 Report = Callable[[int, float], None]
@@ -129,11 +144,17 @@ def step_folds(step: int) -> float:
     return step / STEPS_PER_FOLD
 
 
-def describe_step(step: int, n_folds: int) -> str:
-    """Plain words for how far a trial got: ``"2/3 of fold 1"``, ``"2 of 5 folds"``."""
+def describe_step(step: int, n_folds: int, row_shares: tuple[float, ...] = ()) -> str:
+    """Plain words for how far a trial got: ``"2/3 of fold 1"``, ``"fold 1 on 1/9 of its rows"``, ``"2 of 5 folds"``."""
+    if step < STEPS_PER_FOLD and step <= len(row_shares):
+        return f"fold 1 on {share_words(row_shares[step - 1])} of its training rows"
     if step < STEPS_PER_FOLD:
         return f"{step}/{STEPS_PER_FOLD} of fold 1"
     return f"{step // STEPS_PER_FOLD} of {n_folds} folds"
+
+
+def _silent(step: int, value: float) -> None:
+    """A report that goes nowhere: the thirds of training on a row rung are not steps of their own."""
 
 
 @dataclass
@@ -152,6 +173,9 @@ class CrossValidationObjective:
         Cores a model may use inside one trial.
     n_folds
         Folds to use; by default chosen from the data size (see ``fold_count``).
+    row_shares
+        The row ladder's sample shares (at most ``STEPS_PER_FOLD - 1``, increasing), or none: the
+        first fold is then fitted on those shares of its training rows first (steps 1, 2 …).
     """
 
     dataset: Dataset
@@ -159,14 +183,21 @@ class CrossValidationObjective:
     seed: int = 0
     n_threads: int = 1
     n_folds: int | None = None
+    row_shares: tuple[float, ...] = ()
 
     def __post_init__(self) -> None:
+        if len(self.row_shares) >= STEPS_PER_FOLD or list(self.row_shares) != sorted(set(self.row_shares)):
+            raise ValueError(f"at most {STEPS_PER_FOLD - 1} increasing row shares are allowed")
         self.folds = make_folds(self.dataset.y, self.dataset.task, self.seed, self.n_folds)
         self.cardinality = {c.name: c.n_unique for c in self.dataset.columns}
+        train = self.folds[0][0]
+        # One seeded order of the first fold's training rows; each rung takes a prefix (nested).
+        self.rung_samples = nested_samples(train, self.dataset.y, self.dataset.task, self.row_shares,
+                                           self.seed + 1) if self.row_shares else []
 
     def describe_step(self, step: int) -> str:
         """How far a trial that stopped at ``step`` got, in words."""
-        return describe_step(step, len(self.folds))
+        return describe_step(step, len(self.folds), self.row_shares)
 
     def warm_up(self, configs: Iterable[Mapping[str, Any]]) -> None:
         """Run each config's first-fold path once, on a few rows and tiny models, in this process.
@@ -212,7 +243,11 @@ class CrossValidationObjective:
                 with warnings.catch_warnings(), threadpool_limits(self.n_threads):
                     warnings.simplefilter("ignore")
                     held_out = _HeldOut(self.metric, y[test], self.dataset.classes)
-                    if fold == 1:
+                    if fold == 1 and self.rung_samples and cap is None:
+                        self._climb(config, X.iloc[test], held_out, report)
+                        first = fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, _silent)
+                        fitted, rank, rounds, output = first.score, first.rank, first.rounds, first.output
+                    elif fold == 1:
                         first = fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, report)
                         fitted, rank, rounds, output = first.score, first.rank, first.rounds, first.output
                     else:
@@ -236,6 +271,17 @@ class CrossValidationObjective:
             extras[keys.ROUNDS] = rounds
         kept = [p for p in predictions if p is not None] if all(p is not None for p in predictions) else None
         return TrialResult(value=float(np.mean(scores)), fold_scores=scores, extras=extras, predictions=kept)
+
+    def _climb(self, config: Mapping[str, Any], X_test: Any, held_out: _HeldOut, report: Report) -> None:
+        """The row rungs: the first fold fitted whole on each nested sample, its ranking score reported."""
+        from tunelab.models import build_pipeline
+
+        X, y = self.dataset.X, self.dataset.y
+        for step, sample in enumerate(self.rung_samples, start=1):
+            pipeline = build_pipeline(dict(config), self.dataset.roles, self.cardinality, self.dataset.task,
+                                      seed=self.seed, n_threads=self.n_threads)
+            fitted = fit_in_parts(pipeline, X.iloc[sample], y[sample], X_test, held_out, _silent)
+            report(step, fitted.rank)
 
 
 def settled_config(config: Mapping[str, Any], rounds: int | None) -> dict[str, Any]:

@@ -21,6 +21,9 @@ step 3 one fold, step 6 two folds.  Three things follow for a fair comparison:
   went on after one fold and about 60 % after two, against the third that halving intends) and
   its five-fold fits took most of the budget.  Within the family the usual third goes on; a trial of a weak family
   is still stopped by the rung all families share.
+* with rows as a fidelity (``row_rungs``), steps 1 and 2 are the first fold fully fitted on 1/9
+  and 1/3 of its training rows: whole models, so every family is judged there, against every
+  family and within its own, as from one fold on; each of them is a rung;
 * optionally (``margin_se``), a trial must trail the kept share by more than chance: a number
   of standard errors of the difference between two trials' running means (``fold_noise``,
   measured on the finished trials).  It keeps more of the trials that end best on the folds, but
@@ -53,7 +56,7 @@ PRUNING_CHOICES = ("auto", "off", "median", "halving", "hyperband")
 # fold measured 2.08-4.84x the configurations per minute of no pruning on six datasets (mean of
 # two seeds, benchmarks/README.md) against 1.58-5.31x for rungs at one third, one and two folds
 # judged across families only; the geometric ladder (1, 3, 9) saved less in replays.
-RUNG_STEPS = (1, *(STEPS_PER_FOLD * fold for fold in range(1, 5)))
+RUNG_STEPS = (1, *(STEPS_PER_FOLD * fold for fold in range(1, 5)))  # rung_steps() without row rungs
 RUNG_FACTOR = 3  # successive halving's reduction factor: the best third of a rung goes on
 KEEP = 1 / RUNG_FACTOR  # the best third goes on: successive halving with factor 3 (Jamieson & Talwalkar 2016;
 # asynchronous form: Li et al. 2020, "A System for Massively Parallel Hyperparameter Tuning"; from memory)
@@ -74,9 +77,20 @@ def _maximise(study: optuna.Study) -> bool:
     return study.direction == optuna.study.StudyDirection.MAXIMIZE
 
 
-def _judged_at(trial: FrozenTrial, step: int) -> bool:
-    """Whether a value at ``step`` may prune: from one fold on always, below it only for forests."""
-    return step >= STEPS_PER_FOLD or trial.params.get("family") in PREVIEW_FAMILIES
+def _judged_at(trial: FrozenTrial, step: int, row_rungs: int = 0) -> bool:
+    """Whether a value at ``step`` may prune: from one fold on and on a row rung always, else only for forests."""
+    return step >= STEPS_PER_FOLD or step <= row_rungs or trial.params.get("family") in PREVIEW_FAMILIES
+
+
+def _whole(step: int, row_rungs: int) -> bool:
+    """Whether a value at ``step`` is a wholly fitted model's score (all families meet there)."""
+    return step >= STEPS_PER_FOLD or step <= row_rungs
+
+
+def rung_steps(row_rungs: int = 0) -> tuple[int, ...]:
+    """The rungs: every row rung (steps 1 … ``row_rungs``), else a third of fold 1; then each fold but the last."""
+    below = tuple(range(1, row_rungs + 1)) if row_rungs else (1,)
+    return (*below, *(STEPS_PER_FOLD * fold for fold in range(1, 5)))
 
 
 def fold_noise(study: optuna.Study) -> float | None:
@@ -93,14 +107,14 @@ def fold_noise(study: optuna.Study) -> float | None:
 
 
 def _peer_values(study: optuna.Study, trial: FrozenTrial, step: int, states: Iterable[TrialState],
-                 also: Callable[[FrozenTrial], bool] | None = None) -> list[float]:
-    """Values other trials reported at exactly ``step``; below one fold, from the same family only."""
+                 also: Callable[[FrozenTrial], bool] | None = None, row_rungs: int = 0) -> list[float]:
+    """Values other trials reported at exactly ``step``; below one fold (but a row rung), from the same family only."""
     family = trial.params.get("family")
     values = []
     for other in study.get_trials(deepcopy=False, states=tuple(states)):
         if other.number == trial.number or (also is not None and not also(other)):
             continue
-        if step < STEPS_PER_FOLD and other.params.get("family") != family:
+        if not _whole(step, row_rungs) and other.params.get("family") != family:
             continue
         seen = other.intermediate_values.get(step)
         if seen is not None and not math.isnan(seen):
@@ -141,10 +155,16 @@ class RungPruner(BasePruner):
         From one fold on, prune only a trial that trails the kept share by more than this many
         standard errors of a paired difference of running means (``fold_noise``); 0, the
         default, ranks by value alone.
+    row_rungs
+        Steps 1 … ``row_rungs`` are row rungs (whole fits on row samples): judged for every
+        family, across families and within them.  With row rungs the default ``rungs`` are
+        ``rung_steps(row_rungs)``.
     """
 
-    def __init__(self, rungs: tuple[int, ...] = RUNG_STEPS, keep: float = KEEP, min_peers: int = MIN_PEERS,
-                 brackets: int = 1, within_family: bool = True, margin_se: float = MARGIN_SE) -> None:
+    def __init__(self, rungs: tuple[int, ...] | None = None, keep: float = KEEP, min_peers: int = MIN_PEERS,
+                 brackets: int = 1, within_family: bool = True, margin_se: float = MARGIN_SE,
+                 row_rungs: int = 0) -> None:
+        rungs = rung_steps(row_rungs) if rungs is None else rungs
         if (not rungs or list(rungs) != sorted(set(rungs)) or rungs[0] < 1 or not 0.0 < keep < 1.0
                 or min_peers < 1 or brackets < 1 or margin_se < 0):
             raise ValueError("increasing rungs from step 1, 0 < keep < 1, min_peers >= 1, brackets >= 1 "
@@ -155,6 +175,7 @@ class RungPruner(BasePruner):
         self.brackets = brackets
         self.within_family = within_family
         self.margin_se = margin_se
+        self.row_rungs = row_rungs
 
     def rung_of(self, step: int) -> int | None:
         """The rung index of a step, or None between rungs."""
@@ -167,7 +188,7 @@ class RungPruner(BasePruner):
         value = trial.intermediate_values[step]
         if math.isnan(value):
             return True
-        if not _judged_at(trial, step):
+        if not _judged_at(trial, step, self.row_rungs):
             return False
         rung = self.rung_of(step)
         bracket = trial.number % self.brackets
@@ -176,14 +197,14 @@ class RungPruner(BasePruner):
         same_bracket = None if self.brackets == 1 else (lambda t: t.number % self.brackets == bracket)
         states = (TrialState.COMPLETE, TrialState.PRUNED, TrialState.RUNNING, TrialState.FAIL)
         margin = self._margin(study, step)
-        values = [value, *_peer_values(study, trial, step, states, same_bracket)]
+        values = [value, *_peer_values(study, trial, step, states, same_bracket, self.row_rungs)]
         if self._below_share(study, value, values, margin):
             return True
-        if self.within_family and step >= STEPS_PER_FOLD:
+        if self.within_family and _whole(step, self.row_rungs):
             family = trial.params.get("family")
             kin = [value, *_peer_values(study, trial, step, states,
                                         lambda t: t.params.get("family") == family
-                                        and (same_bracket is None or same_bracket(t)))]
+                                        and (same_bracket is None or same_bracket(t)), self.row_rungs)]
             return self._below_share(study, value, kin, margin)
         return False
 
@@ -212,9 +233,10 @@ class MedianPruner(BasePruner):
     A NaN value is always pruned.
     """
 
-    def __init__(self, startup: int = MEDIAN_STARTUP, min_peers: int = 3) -> None:
+    def __init__(self, startup: int = MEDIAN_STARTUP, min_peers: int = 3, row_rungs: int = 0) -> None:
         self.startup = startup
         self.min_peers = min_peers
+        self.row_rungs = row_rungs
 
     def prune(self, study: optuna.Study, trial: FrozenTrial) -> bool:
         step = trial.last_step
@@ -223,11 +245,11 @@ class MedianPruner(BasePruner):
         value = trial.intermediate_values[step]
         if math.isnan(value):
             return True
-        if not _judged_at(trial, step):
+        if not _judged_at(trial, step, self.row_rungs):
             return False
         if len(study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,))) < self.startup:
             return False
-        peers = _peer_values(study, trial, step, (TrialState.COMPLETE,))
+        peers = _peer_values(study, trial, step, (TrialState.COMPLETE,), row_rungs=self.row_rungs)
         if len(peers) < self.min_peers:
             return False
         median = statistics.median(peers)
@@ -249,7 +271,8 @@ def choose_pruning(expected_trials: float | None) -> str:
     return "off" if expected_trials < FEW_TRIALS else "halving"
 
 
-def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: float | None = None) -> BasePruner:
+def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: float | None = None,
+                row_rungs: int = 0) -> BasePruner:
     """The pruner for ``kind`` (one of ``PRUNING_CHOICES``).
 
     Parameters
@@ -262,6 +285,9 @@ def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: flo
         count work and the last fold is never reported.
     expected_trials
         Trials the launch is expected to finish (budget divided by a typical trial time), if known.
+    row_rungs
+        The study's row rungs (rows as a fidelity); ``auto`` then always means halving, which is
+        what climbs the ladder, and ``off`` is refused (a study with row rungs needs a pruner).
 
     Raises
     ------
@@ -272,11 +298,13 @@ def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: flo
     if kind not in PRUNING_CHOICES:
         raise InputError(f"unknown pruning '{kind}'", f"use one of: {', '.join(PRUNING_CHOICES)}")
     if kind == "auto":
-        kind = choose_pruning(expected_trials)
+        kind = "halving" if row_rungs else choose_pruning(expected_trials)
     if kind == "off":
+        if row_rungs:
+            raise ValueError("a study with row rungs cannot be searched without pruning")
         return optuna.pruners.NopPruner()
     if kind == "median":
-        return MedianPruner()
+        return MedianPruner(row_rungs=row_rungs)
     if kind == "halving":
-        return RungPruner()
-    return RungPruner(brackets=3)
+        return RungPruner(row_rungs=row_rungs)
+    return RungPruner(brackets=3, row_rungs=row_rungs)

@@ -87,7 +87,8 @@ def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, 
                            dropped=dropped)
     n_folds = int(record.settings.get("n_folds", 5))
     pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
-                         expected_trials=record.settings.get("expected_trials"))
+                         expected_trials=record.settings.get("expected_trials"),
+                         row_rungs=len(record.settings.get(keys.ROW_SHARES) or ()))
     optuna.logging.set_verbosity(optuna.logging.WARNING)  # tunelab reports study creation itself
     storage = store.optuna_storage()
     fresh = create
@@ -104,7 +105,16 @@ def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, 
 
 def make_sampler(kind: str, seed: int, dropped: tuple[str, ...] = ()) -> optuna.samplers.BaseSampler:
     """TPE (multivariate, grouped for the conditional space, constant liar for parallel workers) or random;
-    with ``dropped`` families, wrapped so that it never returns them."""
+    with ``dropped`` families, wrapped so that it never returns them.
+
+    What TPE learns from lower fidelities (pruned trials; with rows as a fidelity, a trial stopped
+    on a row rung): its "good" group is filled with complete trials by score first, then with
+    pruned trials by the rung they reached, and among those stopped on one rung by their value
+    there.  A trial that climbed further won more successive-halving comparisons, so this is the
+    order halving promoted them in (Bergstra et al. 2011, NeurIPS, for TPE; the ordering of pruned
+    trials is optuna's TPESampler's, checked in ``tests/test_rows_fidelity.py``).  Values from
+    different rungs are never compared with each other.
+    """
     base: optuna.samplers.BaseSampler
     if kind == "random":
         base = optuna.samplers.RandomSampler(seed=seed)

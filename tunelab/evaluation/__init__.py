@@ -16,6 +16,19 @@ from tunelab.evaluation._metrics import (
     score,
     score_output,
 )
+from tunelab.evaluation._row_ladder import (
+    MIN_RUNG_ROWS,
+    ROW_SHARES,
+    LadderChoice,
+    choose_ladder,
+    describe_ladder,
+    nested_samples,
+    rung_rows,
+    share_words,
+    stratified_order,
+)
 
-__all__ = ["DEFAULT_METRIC", "Direction", "LARGE_DATA_ROWS", "METRICS", "Metric", "better", "fold_count",
-           "make_folds", "ranking_metric", "resolve_metric", "score", "score_output"]
+__all__ = ["DEFAULT_METRIC", "Direction", "LARGE_DATA_ROWS", "METRICS", "MIN_RUNG_ROWS", "Metric", "ROW_SHARES",
+           "LadderChoice", "better", "choose_ladder", "describe_ladder", "fold_count", "make_folds",
+           "nested_samples", "ranking_metric", "resolve_metric", "rung_rows", "score", "score_output",
+           "share_words", "stratified_order"]

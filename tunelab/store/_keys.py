@@ -25,11 +25,15 @@ FIT_SECONDS = "fit_seconds"
 FIDELITY = "fidelity"  # how far the trial got, in words
 ERROR = "error"  # a failed trial's error text
 
+# A study's settings (the study record's ``settings``), beside pruning, jobs and folds.
+ROW_SHARES = "row_shares"  # rows as a fidelity: the first fold's sample shares before all rows, if any
+
 # Values of STATE.
 INTERRUPTED = "interrupted"
 FAILED = "failed"
 
 __all__ = [
     "CPU_SECONDS", "ERROR", "FAILED", "FIDELITY", "FIT_SECONDS", "FOLD_SCORES", "FOLD_STD", "INTERRUPTED",
-    "LAUNCH", "LEARNED_FROM", "PHASE", "PORTFOLIO_MEMBER", "RETRY_OF", "ROUNDS", "SECONDS", "STATE", "WARM_START",
+    "LAUNCH", "LEARNED_FROM", "PHASE", "PORTFOLIO_MEMBER", "RETRY_OF", "ROUNDS", "ROW_SHARES", "SECONDS", "STATE",
+    "WARM_START",
 ]
