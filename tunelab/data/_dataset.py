@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from tunelab.data._read import file_sha256, read_table
+from tunelab.data._read import read_table_hashed
 from tunelab.data._roles import ColumnRole, infer_roles
 from tunelab.data._task import TASKS, Task, check_target, infer_task
 from tunelab.errors import InputError
@@ -33,6 +33,7 @@ class Dataset:
     classes: list[object] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     fingerprint: str = ""
+    sha256: str = ""  # of the file it was read from, hashed while reading (every step of a launch reuses it)
 
     @property
     def roles(self) -> dict[str, str]:
@@ -58,9 +59,10 @@ def load_dataset(path: str | Path, target: str, task: str | None = None) -> Data
         Unreadable file, unknown target column, unusable target, or unknown task.
     """
     path = Path(path)
-    frame = read_table(path)
+    frame, sha = read_table_hashed(path)
     dataset = prepare_frame(frame, target, task)
-    dataset.fingerprint = dataset_fingerprint(file_sha256(path), target, dataset.task)
+    dataset.sha256 = sha
+    dataset.fingerprint = dataset_fingerprint(sha, target, dataset.task)
     return dataset
 
 
