@@ -20,6 +20,7 @@ import uuid
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 TUNELAB = [sys.executable, "-m", "tunelab"]
 PG_ADMIN_URL = os.environ.get("TUNELAB_TEST_PG", "postgresql://127.0.0.1:5432/test")
@@ -69,6 +70,18 @@ class StoreFacts:
     retries: dict[int, int]  # interrupted trial number -> times its config was re-queued
     launches: list[tuple[int, str]]  # (launch id, state)
     studies: int
+
+
+def worker_processes(run_pid: int, store: Path) -> list[Any]:
+    """The worker processes a ``run --jobs N`` forked (children of the run whose pid a worker launch holds)."""
+    import psutil
+
+    try:
+        with sqlite3.connect(f"file:{store}?mode=ro", uri=True, timeout=5) as conn:
+            pids = {int(p) for (p,) in conn.execute("select pid from tl_launch where kind = 'worker'")}
+    except sqlite3.Error:  # not created yet
+        return []
+    return [p for p in psutil.Process(run_pid).children() if p.pid in pids]
 
 
 def read_store(path: Path) -> StoreFacts:

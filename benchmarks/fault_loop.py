@@ -42,6 +42,7 @@ from benchmarks._faults import (
     pg_facts,
     read_store,
     small_disk,
+    worker_processes,
 )
 
 FAULTS = ("disk", "connection", "frozen")
@@ -117,7 +118,7 @@ def frozen_worker(rng: random.Random) -> dict[str, Any]:
                                 "--store", str(store), "--study", "w", "-q"], stdout=subprocess.PIPE,
                                stderr=subprocess.PIPE, text=True)
         time.sleep(rng.uniform(12, 25))
-        kids = [p for p in psutil.Process(run.pid).children() if "worker" in " ".join(p.cmdline())]
+        kids = worker_processes(run.pid, store)
         frozen = [kids[0], *kids[0].children(recursive=True)] if kids else []
         for proc in frozen:
             proc.send_signal(signal.SIGSTOP)

@@ -13,7 +13,17 @@ from pathlib import Path
 
 import pytest
 
-from benchmarks._faults import TUNELAB, CuttableLink, can_mount, fill, pg_database, pg_facts, read_store, small_disk
+from benchmarks._faults import (
+    TUNELAB,
+    CuttableLink,
+    can_mount,
+    fill,
+    pg_database,
+    pg_facts,
+    read_store,
+    small_disk,
+    worker_processes,
+)
 from conftest import small_frame
 
 
@@ -182,7 +192,7 @@ def test_a_worker_frozen_past_the_stale_limit_records_nothing_after_it_was_decla
 
     def worker_started() -> bool:
         nonlocal worker
-        kids = [p for p in psutil.Process(run.pid).children() if "worker" in " ".join(p.cmdline())]
+        kids = worker_processes(run.pid, store)
         worker = kids[0] if kids else None
         return worker is not None and store.exists() and any(state == "running" for _, state in
                                                              read_store(store).launches[1:])
@@ -192,7 +202,8 @@ def test_a_worker_frozen_past_the_stale_limit_records_nothing_after_it_was_decla
     frozen = [worker, *worker.children(recursive=True)]  # the worker and the trial it is running
     for proc in frozen:
         proc.send_signal(signal.SIGSTOP)
-    time.sleep(45)  # well past the 30 s after which another worker declares it dead (it looks between trials)
+    time.sleep(55)  # well past the 30 s after which another worker declares it dead (it looks between trials,
+    # so a loaded machine needs the extra room before the worker wakes and beats again)
     for proc in frozen:
         try:
             proc.send_signal(signal.SIGCONT)
