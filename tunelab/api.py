@@ -70,15 +70,16 @@ def run(data: str | Path, target: str, *, budget: Duration | None = None, trials
         cpu_budget: Duration | None = None, metric: str | None = None, task: str | None = None,
         study: str | None = None, store: str | None = None, seed: int = 0, space: str | Path | None = None,
         pruning: str = "auto", jobs: str | int | None = None, learn_from: Sequence[str] = (), learn_nearest: int = 0,
-        portfolio: bool = True, portfolio_file: str | Path | None = None,
+        portfolio: bool = True, portfolio_file: str | Path | None = None, rows_fidelity: str = "auto",
         horizon: Duration = "10m", worth: float | None = None,
         on_progress: Callable[[Progress], None] | None = None) -> RunResult:
     """Profile a data file, build its search space and search it within a budget (``tunelab run``).
 
     ``budget`` is the study's total wall-clock time (default 10 minutes unless ``trials`` caps the
     count); ``jobs`` the worker processes (a number or ``"auto"``; default ``TUNELAB_JOBS``, else
-    auto).  The result holds the best trial, how the launch ended, and the first look at what is
-    already decided (``result.decisions``).
+    auto); ``rows_fidelity`` ``"auto"`` lets trials on a big table start on row samples (``"off"``:
+    every trial on all rows).  The result holds the best trial, how the launch ended, and the first
+    look at what is already decided (``result.decisions``).
     """
     from tunelab.engine import Budget
     from tunelab.ops import RunRequest, run_study
@@ -88,7 +89,8 @@ def run(data: str | Path, target: str, *, budget: Duration | None = None, trials
     request = RunRequest(data=Path(data), target=target, budget=box, store=store, study=study, task=task,
                          metric=metric, seed=seed, space_file=Path(space) if space else None, pruning=pruning,
                          jobs=jobs, learn_from=tuple(learn_from), learn_nearest=learn_nearest, portfolio=portfolio,
-                         portfolio_file=Path(portfolio_file) if portfolio_file else None)
+                         portfolio_file=Path(portfolio_file) if portfolio_file else None,
+                         rows_fidelity=rows_fidelity)
     return run_study(request, on_progress=on_progress, look=decision_options(horizon, worth))
 
 

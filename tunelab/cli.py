@@ -53,6 +53,11 @@ JobsOpt = typer.Option("auto", "--jobs", "-j", metavar="N|auto", envvar="TUNELAB
                        help="Worker processes on this machine, each running one trial at a time on one thread: a "
                             "number, or auto (the CPUs this process may use, capped by the memory one needs). "
                             "TUNELAB_JOBS sets the default.")
+RowsFidelityOpt = typer.Option("auto", "--rows-fidelity", metavar="auto|off",
+                               help="auto: on a big table where few full-data trials fit the budget, trials start on "
+                                    "1/9, then 1/3 of a fold's rows, and only the good ones go on to all rows "
+                                    "(status shows the ladder). off: every trial on all rows. --pruning off also "
+                                    "turns it off.")
 HorizonOpt = typer.Option("10m", "--horizon", metavar="DURATION",
                           help="The stretch of search the forecast looks at, in study time, e.g. 10m or 1h.")
 WorthOpt = typer.Option(None, "--worth", metavar="GAIN",
@@ -171,6 +176,7 @@ def run(
     pruning: str = typer.Option("auto", "--pruning",
                                 help="auto, off, median, halving or hyperband. auto counts the trials the budget "
                                      "should finish: off under 4, successive halving from there."),
+    rows_fidelity: str = RowsFidelityOpt,
     jobs: str = JobsOpt,
     learn: list[str] | None = typer.Option(None, "--learn-from", metavar="STUDY",
                                            help="An earlier study in the same store (same kind of task): its "
@@ -212,7 +218,7 @@ def run(
     request = RunRequest(data=data, target=target, budget=box, store=store, study=study, task=task, metric=metric,
                          seed=seed, space_file=space, pruning=pruning, jobs=jobs,
                          learn_from=tuple(learn or ()), learn_nearest=nearest, portfolio=not no_portfolio,
-                         portfolio_file=portfolio_file)
+                         portfolio_file=portfolio_file, rows_fidelity=rows_fidelity)
     announce, progress, close = _progress_hooks({}, quiet or json_out)
     try:
         result = run_study(request, announce=announce, on_progress=progress, settings=_settings(ctx), look=look)
@@ -335,13 +341,20 @@ def export(
 ) -> None:
     """Refit the best pipeline on all rows and write a model file (its sha256 goes into the store).
 
+    The refit uses the rows the trial was scored on: all of them, or its row cap's sample; a refit
+    expected to take more than a few seconds says how long first and shows its progress.
+
     Model files hold pickles: load only files you trust.
     """
     from tunelab import _render as r
     from tunelab.ops import export_model
 
-    result = export_model(study, out, store=store, trial=trial, choose_by=choose, ensemble=ensemble,
-                          max_members=max_members, max_predict_ms=max_predict_ms)
+    progress = r.RefitProgress(enabled=not json_out)
+    try:
+        result = export_model(study, out, store=store, trial=trial, choose_by=choose, ensemble=ensemble,
+                              max_members=max_members, max_predict_ms=max_predict_ms, on_refit=progress.start)
+    finally:
+        progress.stop()
     if json_out:
         r.emit_json(result.to_dict())
         return
@@ -380,6 +393,7 @@ def profile(
                                                                           "(edit it, then pass it to run --space)."),
     seed: int = SeedOpt,
     jobs: str = JobsOpt,
+    rows_fidelity: str = RowsFidelityOpt,
     no_portfolio: bool = typer.Option(False, "--no-portfolio", help="Leave the shipped portfolio out, as run would."),
     portfolio_file: Path | None = typer.Option(None, "--portfolio", metavar="FILE",
                                                help="A rebuilt portfolio, as run --portfolio would use."),
@@ -400,7 +414,7 @@ def profile(
 
     seconds = parse_duration(budget) if budget else None
     report = profile_data(data, target, task, budget_seconds=seconds, metric=metric, seed=seed, jobs=jobs,
-                          portfolio=not no_portfolio, portfolio_file=portfolio_file)
+                          portfolio=not no_portfolio, portfolio_file=portfolio_file, rows_fidelity=rows_fidelity)
     similar = similar_studies(store, similarity_vector(report.meta), report.task)
     if write_space is not None:
         from tunelab.files import write_atomically

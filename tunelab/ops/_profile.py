@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from tunelab.data import Dataset, load_dataset
+from tunelab.errors import InputError
 from tunelab.evaluation import resolve_metric
 from tunelab.facts import DataFacts, MetaFeatures, compute_metafeatures, data_facts
 from tunelab.models import ONE_HOT_MAX_CARDINALITY
@@ -179,7 +180,7 @@ def built_space(dataset: Dataset, *, budget_seconds: float | None, metric: str |
 def profile_data(path: str | Path, target: str, task: str | None = None, *,
                  budget_seconds: float | None = None, metric: str | None = None, seed: int = 0,
                  jobs: str | int | None = None, portfolio: bool = True,
-                 portfolio_file: Path | None = None) -> ProfileReport:
+                 portfolio_file: Path | None = None, rows_fidelity: str = "auto") -> ProfileReport:
     """Load a data file, describe it, and build the search space ``run`` would use.
 
     Parameters
@@ -196,6 +197,8 @@ def profile_data(path: str | Path, target: str, task: str | None = None, *,
         Plan for this metric (as ``run --metric``); ``None`` means the task's default.
     seed
         Seeds the meta-feature subsamples.
+    rows_fidelity
+        ``auto`` or ``off``, as ``run --rows-fidelity``: whether the space may plan a row ladder.
 
     Returns
     -------
@@ -211,15 +214,17 @@ def profile_data(path: str | Path, target: str, task: str | None = None, *,
     dataset = load_dataset(Path(path), target, task)
     if metric is not None:
         metric = resolve_metric(metric, dataset.task).name  # the same refusal as run's
+    if rows_fidelity not in ("auto", "off"):
+        raise InputError(f"unknown --rows-fidelity '{rows_fidelity}'", "use one of: auto, off")
+    workers = resolve_jobs(parse_jobs(jobs), process_bytes=_resident_bytes()).count
     facts = profile_facts(dataset, metric=metric, seed=seed)
-    space = build_space(facts, budget_seconds=budget_seconds)
+    space = build_space(facts, budget_seconds=budget_seconds, workers=workers, rows_fidelity=rows_fidelity)
     meta = facts.meta
     tokens = meta.simple.mean_text_tokens
     columns = tuple(ColumnProfile(c.name, c.role, c.reason, c.n_unique, c.missing_share,
                                   tokens.get(c.name) if c.role == "text" else None, _treatment(c.role, c.n_unique,
                                                                                               c.missing_share))
                     for c in dataset.columns)
-    workers = resolve_jobs(parse_jobs(jobs), process_bytes=_resident_bytes()).count
     expected = None
     if space.trial_seconds and (budget_seconds or REFERENCE_BUDGET_S):
         expected = round(workers * (budget_seconds or REFERENCE_BUDGET_S) / space.trial_seconds, 1)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import os
 import re
 import signal
@@ -45,6 +46,7 @@ from tunelab.space import SpaceSpec, build_space
 from tunelab.store import Store, StudyRecord, keys
 
 THREADS_PER_TRIAL = 1
+ROWS_FIDELITY_CHOICES = ("auto", "off")
 # The importance computation's allowance in run's first look; with the rest it stays within 5 s.
 FIRST_LOOK_SECONDS = 2.0
 
@@ -68,6 +70,7 @@ class RunRequest:
     learn_nearest: int = 0  # also learn from this many earlier studies whose data looks most alike
     portfolio: bool = True  # queue the shipped portfolio's configurations (after learned ones, before priors)
     portfolio_file: Path | None = None  # a rebuilt portfolio to use instead of the shipped one
+    rows_fidelity: str = "auto"  # auto: trials climb a row ladder on big tables (see tunelab.evaluation); off
 
 
 @dataclass
@@ -116,6 +119,9 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
     work after the launch closes, not charged to the budget).
     """
     parse_jobs(request.jobs)  # a bad --jobs is refused before any work
+    if request.rows_fidelity not in ROWS_FIDELITY_CHOICES:
+        raise InputError(f"unknown --rows-fidelity '{request.rows_fidelity}'",
+                         f"use one of: {', '.join(ROWS_FIDELITY_CHOICES)}")
     if request.study is not None and not request.study.strip():
         raise InputError("--study is empty",
                          "give the study a name, or leave out --study to name it after the data file")
@@ -125,17 +131,22 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
     # The space comes from the data's meta-features (``tunelab profile`` shows it, with reasons);
     # profiling runs inside the launch, so its seconds are charged to the budget like any other.
     similarity: dict[str, float] = {}
+    workers = _workers(request.jobs)
+    # The row ladder needs the pruner that climbs it: --pruning off means every trial on all rows.
+    rows_mode = "off" if request.pruning == "off" else request.rows_fidelity
     if request.space_file:
         space = _load_space(request.space_file)
+        if rows_mode == "off":
+            space = replace(space, row_shares=())
         if request.learn_nearest:  # only then is it worth the seconds of meta-features
             similarity = similarity_vector(profile_metafeatures(dataset, seed=request.seed))
     else:
         facts = profile_facts(dataset, metric=metric.name, seed=request.seed)
-        space = build_space(facts, budget_seconds=request.budget.wall_seconds)
+        space = build_space(facts, budget_seconds=request.budget.wall_seconds, workers=workers.count,
+                            rows_fidelity=rows_mode)
         similarity = similarity_vector(facts.meta)
     _check_space_fits(space, dataset)
     pruner_kind = request.pruning
-    workers = _workers(request.jobs)
     expected = _expected_trials(space, request.budget, workers.count)
     make_pruner(pruner_kind, max_steps=5)  # validate before the store is touched
     with Store.open(request.store, create=True) as store:
@@ -152,12 +163,13 @@ def run_study(request: RunRequest, *, clock: Clock | None = None, announce: Anno
                                    limit=None if room is None else max(0, room))
         record = store.create_study(
             name=name, now=clock.now(), data_path=str(request.data.resolve()),
-            data_sha256=file_sha256(request.data), fingerprint=dataset.fingerprint, target=request.target,
+            data_sha256=dataset.sha256, fingerprint=dataset.fingerprint, target=request.target,
             task=dataset.task, metric=metric.name, direction=metric.direction, seed=request.seed,
             budget_wall=request.budget.wall_seconds, budget_cpu=request.budget.cpu_seconds,
             budget_trials=request.budget.trials,
             settings={"pruning": pruner_kind, "jobs": workers.count, "expected_trials": expected,
                       "n_folds": fold_count(dataset.n_rows, dataset.task, dataset.y),
+                      **({keys.ROW_SHARES: list(space.row_shares)} if space.row_shares else {}),
                       **({SIMILARITY_KEY: similarity} if similarity else {})},
             space_json=space.to_json(), space_reason=space.family_reason or "initial search space",
         )
@@ -181,8 +193,11 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
                  announce: Announce | None = None, on_progress: OnProgress | None = None,
                  runner_factory: Callable[[Any], Any] = ForkRunner, settings: SearchSettings | None = None,
                  jobs: str | int | None = None, kind: str = "resume",
-                 look: DecisionOptions | None = None) -> RunResult:
+                 look: DecisionOptions | None = None, loaded: Dataset | None = None) -> RunResult:
     """Continue a study with what is left of its budget (plus any extension).
+
+    ``loaded`` is the study's data already read and checked by the launch this worker was forked
+    from (see ``WorkerGroup``): it is not read or hashed again.
 
     ``kind="worker"`` joins a study other processes are working on (``tunelab worker``): the same
     path, recorded as a worker launch.
@@ -194,11 +209,18 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
         if not path.exists():
             raise StudyStateError(f"the data file of study '{name}' is gone: {path}",
                                   "point to its new place with --data PATH")
-        sha = file_sha256(path)
+        if loaded is not None:  # forked from a launch that has just read and checked it
+            dataset = loaded
+        else:
+            try:
+                dataset = load_dataset(path, record.target, record.task)
+            except InputError:
+                if file_sha256(path) != record.data_sha256 and not accept_changed_data:
+                    raise _changed(path, name) from None
+                raise
+        sha = dataset.sha256
         if sha != record.data_sha256 and not accept_changed_data:
-            raise StudyStateError(f"data file {path} changed since study '{name}' started (sha256 differs)",
-                                  "restore the original file, start a new study, or pass --accept-changed-data")
-        dataset = load_dataset(path, record.target, record.task)
+            raise _changed(path, name)
         updates: dict[str, Any] = {}
         if kind != "worker" and (sha != record.data_sha256 or str(path.resolve()) != record.data_path):
             updates.update(data_sha256=sha, data_path=str(path.resolve()),
@@ -229,6 +251,11 @@ def resume_study(name: str, *, store: str | None = None, extend_seconds: float =
                            jobs=_workers(jobs), notes=dataset.notes, look=look)
 
 
+def _changed(path: Path, name: str) -> StudyStateError:
+    return StudyStateError(f"data file {path} changed since study '{name}' started (sha256 differs)",
+                           "restore the original file, start a new study, or pass --accept-changed-data")
+
+
 def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Dataset, space: SpaceSpec,
             budget: Budget, *, dataset_path: Path,
             clock: Clock, announce: Announce | None, on_progress: OnProgress | None,
@@ -245,13 +272,15 @@ def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Data
     # fits measured 10-17x slower than one-thread fits here. Parallelism comes from --jobs.
     threads = THREADS_PER_TRIAL
     objective = CrossValidationObjective(dataset, metric, seed=record.seed, n_threads=threads,
-                                         n_folds=record.settings.get("n_folds"))
+                                         n_folds=record.settings.get("n_folds"),
+                                         row_shares=tuple(record.settings.get(keys.ROW_SHARES) or ()))
     preload(space.kept_families or ["hist_gb"], record.task)
     objective.warm_up(_warm_up_configs(space))
     runner = runner_factory(objective)
     with stop_on_signals():
         if jobs.count > 1:
-            with WorkerGroup(record.name, store.location.url, jobs.count - 1, data=str(dataset_path)) as group:
+            work = functools.partial(_forked_worker, record.name, store.location.url, dataset, dataset_path)
+            with WorkerGroup(jobs.count - 1, work) as group:
                 summary = search(store, record, study, space, runner, budget, clock=clock, settings=settings,
                                  on_progress=on_progress)
                 if summary.exit_code:
@@ -268,6 +297,12 @@ def _launch(store: Store, record: StudyRecord, study: SearchStudy, dataset: Data
                               f"if the study has budget left, join it again: tunelab worker {record.name}")
     return RunResult(record.name, store.location.display(), record.metric, record.direction, summary,
                      _best_config(store, record, summary, space), _first_look(store, record, summary, look))
+
+
+def _forked_worker(name: str, store_url: str, dataset: Dataset, path: Path) -> int:
+    """A worker forked from a launch: it joins the study as ``tunelab worker`` would, on the data already loaded."""
+    result = resume_study(name, store=store_url, data=path, kind="worker", jobs=1, loaded=dataset)
+    return result.summary.exit_code
 
 
 def _first_look(store: Store, record: StudyRecord, summary: SearchSummary,

@@ -5,12 +5,13 @@ from __future__ import annotations
 from dataclasses import asdict, dataclass, field, replace
 from typing import Any
 
-from tunelab.engine import choose_pruning
+from tunelab.engine import STEPS_PER_FOLD, choose_pruning
+from tunelab.evaluation import describe_ladder, share_words
 from tunelab.insight import choose
 from tunelab.ops._ensemble import ensemble_words
 from tunelab.ops._insight import DecisionOptions, decisions_for
 from tunelab.ops._trials import Phases, shown_params
-from tunelab.store import TRIAL_STATES, Store, StudyRecord, TrialRecord, best_of, ranked
+from tunelab.store import TRIAL_STATES, Store, StudyRecord, TrialRecord, best_of, keys, ranked
 
 STATES = TRIAL_STATES
 
@@ -72,6 +73,7 @@ class StudyDetail:
     predictions_kept: dict[str, int] = field(default_factory=dict)  # trials whose held-out predictions are kept, bytes
     ensemble: str = ""  # what an ensemble of the kept trials would add, cross-fitted
     within_one_se: list[int] = field(default_factory=list)  # complete trials within one standard error of the best
+    row_ladder: str = ""  # rows as a fidelity: the ladder in force and how many trials reached each rung
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -115,7 +117,20 @@ def study_detail(name: str, store: str | None, top: int = 5,
                            forecast_line=decisions.forecast_line(),
                            runners_up=choice.words(record.metric) if choice else "",
                            within_one_se=[t.number for t in choice.within] if choice else [],
-                           predictions_kept={"trials": kept, "bytes": size}, ensemble=ensemble)
+                           predictions_kept={"trials": kept, "bytes": size}, ensemble=ensemble,
+                           row_ladder=_ladder_words(record, trials))
+
+
+def _ladder_words(record: StudyRecord, trials: list[TrialRecord]) -> str:
+    """The row ladder in force, and how many trials were scored on each of its rungs (empty without one)."""
+    shares = list(record.settings.get(keys.ROW_SHARES) or ())
+    if not shares:
+        return ""
+    reached = [sum(1 for t in trials if t.state == "complete" or (t.step or 0) >= step)
+               for step in range(1, len(shares) + 1)]
+    full = sum(1 for t in trials if t.state == "complete" or (t.step or 0) >= STEPS_PER_FOLD)
+    rungs = ", ".join(f"{n} on {share_words(s)}" for n, s in zip(reached, shares, strict=True))
+    return f"{describe_ladder(shares)}; trials scored {rungs}, {full} on all rows"
 
 
 def _pruning_words(record: StudyRecord) -> str:
@@ -123,7 +138,7 @@ def _pruning_words(record: StudyRecord) -> str:
     if kind != "auto":
         return kind
     expected = record.settings.get("expected_trials")
-    rule = choose_pruning(expected)
+    rule = "halving" if record.settings.get(keys.ROW_SHARES) else choose_pruning(expected)
     return f"auto: {rule}" + (f" (about {expected:.0f} trials expected)" if expected is not None else "")
 
 

@@ -14,10 +14,13 @@ This module puts them together.
 from __future__ import annotations
 
 import statistics
+from dataclasses import replace
 from typing import Any
 
+from tunelab.evaluation import LadderChoice, choose_ladder
 from tunelab.facts import DataFacts
-from tunelab.space._decision import clamp, int_spec, prior_centre
+from tunelab.models import ROWS_KEY
+from tunelab.space._decision import Decision, clamp, int_spec, prior_centre
 from tunelab.space._family_rules import decide_families
 from tunelab.space._notes import preprocessing_notes, regime_notes
 from tunelab.space._ranking import select_families, warm_starts
@@ -25,7 +28,8 @@ from tunelab.space._rule_facts import RuleFacts, rule_facts
 from tunelab.space._spec import FamilySpec, ParamSpec, SpaceSpec
 
 
-def build_space(data: DataFacts, *, budget_seconds: float | None) -> SpaceSpec:
+def build_space(data: DataFacts, *, budget_seconds: float | None, workers: int = 1,
+                rows_fidelity: str = "auto") -> SpaceSpec:
     """Build a search space for one dataset from its facts and the budget.
 
     Parameters
@@ -39,6 +43,12 @@ def build_space(data: DataFacts, *, budget_seconds: float | None) -> SpaceSpec:
     budget_seconds
         The study's wall-clock budget; ``None`` weighs costs against a reference of
         ``REFERENCE_BUDGET_S`` seconds (:mod:`tunelab.space._rules_of_thumb`).
+    workers
+        Processes that will search at once (how many full-data trials fit the budget).
+    rows_fidelity
+        ``auto``: on a big table where few full-data trials fit the budget, trials climb a row
+        ladder (``tunelab.evaluation.choose_ladder``; the spec's ``row_shares``) and no family
+        gets a fixed row cap; ``off``: every trial on all rows, slow families on a fixed sample.
 
     Returns
     -------
@@ -48,6 +58,10 @@ def build_space(data: DataFacts, *, budget_seconds: float | None) -> SpaceSpec:
     """
     facts = rule_facts(data, budget_seconds)
     decisions, mlp_notes = decide_families(facts)
+    ladder = _ladder(decisions, facts, budget_seconds, workers, rows_fidelity)
+    if ladder:
+        facts = replace(facts, row_ladder=True)
+        decisions, mlp_notes = decide_families(facts)
     kept, family_reason = select_families(decisions, facts)
     prep, prep_centre = _prep_params(facts)
     families = {d.family: FamilySpec(dict(d.params), d.reason) for d in kept}
@@ -57,11 +71,22 @@ def build_space(data: DataFacts, *, budget_seconds: float | None) -> SpaceSpec:
     notes = [f"{len(facts.columns)} columns, {facts.n_rows} rows, {facts.task}; {facts.n_folds}-fold "
              "cross-validation per trial",
              *left_out, *(mlp_notes if kept_mlp else []), *preprocessing_notes(facts),
-             *regime_notes(facts),
+             *regime_notes(facts), *([ladder.reason] if ladder or rows_fidelity == "off" else []),
              "warm starts (prior centres, tried first): " + ", ".join(w["family"] for w in warm)]
     costs = sorted(d.trial_s for d in kept if d.trial_s)
     return SpaceSpec(params=prep, families=families, warm_starts=tuple(warm), notes=tuple(notes),
-                     family_reason=family_reason, trial_seconds=statistics.median(costs) if costs else None)
+                     family_reason=family_reason, trial_seconds=statistics.median(costs) if costs else None,
+                     row_shares=ladder.shares)
+
+
+def _ladder(decisions: list[Decision], facts: RuleFacts, budget_seconds: float | None, workers: int,
+            mode: str) -> LadderChoice:
+    """Whether trials climb a row ladder, from the families' full-data costs (see ``choose_ladder``)."""
+    included = [d for d in decisions if d.include]
+    costs = sorted(d.trial_s for d in included if d.trial_s and ROWS_KEY not in d.params)
+    capped = any(ROWS_KEY in d.params for d in included)
+    return choose_ladder(mode, n_fit=facts.n_fit, trial_seconds=statistics.median(costs) if costs else None,
+                         budget_seconds=budget_seconds, workers=max(1, workers), row_capped=capped)
 
 
 def _prep_params(facts: RuleFacts) -> tuple[dict[str, ParamSpec], dict[str, Any]]:

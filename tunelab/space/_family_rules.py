@@ -180,6 +180,9 @@ def _on_fewer_rows(decide: Any, facts: RuleFacts) -> Decision:
     even its smallest model (20 rounds or trees) would pass the trial share of the budget.  The
     row sample is sized so that about three times that model fits (fits grow about linearly
     with rows for these families), and the family's ranges are then planned for the sample.
+
+    With a row ladder (rows as a fidelity) the family is planned for the same sample but gets no
+    fixed cap: its trials start on a fraction of the rows and the good ones climb to all of them.
     """
     whole = decide(facts)
     if whole.include or not whole.trial_s:
@@ -192,6 +195,10 @@ def _on_fewer_rows(decide: Any, facts: RuleFacts) -> Decision:
     part = decide(sample)
     if not part.include:
         return whole
+    if facts.row_ladder:
+        part.reason += (f"; ranges planned for {rows} of the {facts.n_fit} training rows of a fold, as a trial "
+                        "on all of them would pass the budget; its trials climb the row ladder")
+        return part
     part.reason += f"; trained on {rows} of the {facts.n_fit} training rows of each fold"
     part.params[ROWS_KEY] = ParamSpec(
         "fixed", value=rows, reason=f"on all {facts.n_fit} rows even the smallest model would pass "

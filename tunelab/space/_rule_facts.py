@@ -43,6 +43,7 @@ class RuleFacts:
     transform_probe: TransformProbe | None
     target_skew: float | None  # regression only, and only for a strictly positive target
     shared_scale: bool  # numeric columns measured in one unit (tunelab.data.shares_one_scale)
+    row_ladder: bool = False  # trials climb a row ladder (rows as a fidelity): no family gets a fixed row cap
 
     @property
     def signal(self) -> float | None:

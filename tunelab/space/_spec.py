@@ -142,6 +142,9 @@ class SpaceSpec:
     family_reason: str = ""
     trial_seconds: float | None = None  # the builder's estimate of a typical trial, from the cost probes
     dropped: tuple[str, ...] = ()  # families kept in the ``family`` choice but never sampled (see ``freeze``)
+    # Rows as a fidelity: the sample shares of the first fold's rungs (``tunelab.evaluation``'s row
+    # ladder), or none; ``run`` copies them into the study's settings, which the engine reads.
+    row_shares: tuple[float, ...] = ()
 
     @property
     def kept_families(self) -> list[str]:
@@ -249,6 +252,7 @@ class SpaceSpec:
             "notes": list(self.notes),
             **({"trial_seconds": self.trial_seconds} if self.trial_seconds is not None else {}),
             **({"dropped": list(self.dropped)} if self.dropped else {}),
+            **({"row_shares": list(self.row_shares)} if self.row_shares else {}),
         }
 
     def to_json(self) -> str:
@@ -272,6 +276,7 @@ class SpaceSpec:
             family_reason=data.get("family_reason", ""),
             trial_seconds=data.get("trial_seconds"),
             dropped=tuple(data.get("dropped", ())),
+            row_shares=tuple(float(x) for x in data.get("row_shares", ())),
         )
 
     @classmethod
