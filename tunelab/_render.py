@@ -5,6 +5,8 @@ from __future__ import annotations
 import json
 import os
 import sys
+import threading
+import time
 from typing import Any
 
 from rich.console import Console, JustifyMethod
@@ -73,6 +75,43 @@ class LiveProgress:
             self.bar = None
 
 
+class RefitProgress:
+    """export's refit, when it will take a while: a line saying what and how long, then elapsed against that."""
+
+    def __init__(self, enabled: bool) -> None:
+        self.enabled = enabled
+        self.bar: Bar | None = None
+        self._stop = threading.Event()
+
+    def start(self, refit: Any) -> None:
+        if not self.enabled or not refit.worth_announcing:
+            return
+        trials = ", ".join(str(n) for n in refit.trials)
+        what = f"trial {trials}" if len(refit.trials) == 1 else f"an ensemble of trials {trials}"
+        err.print(f"refitting {what} on {refit.rows_words}: about {format_duration(refit.expected_seconds)} "
+                  "(from the trial's own fold fits)")
+        self.bar = Bar(TextColumn("[bold]refitting"), BarColumn(bar_width=24), TimeElapsedColumn(),
+                       TextColumn(f"of about {format_duration(refit.expected_seconds)}"), console=err,
+                       transient=True)
+        task = self.bar.add_task("refit", total=refit.expected_seconds)
+        self.bar.start()
+        began = time.monotonic()
+        bar = self.bar
+
+        def tick() -> None:
+            while not self._stop.wait(0.5):
+                # the bar stops short of the end until the fit is really done
+                bar.update(task, completed=min(time.monotonic() - began, 0.99 * refit.expected_seconds))
+
+        threading.Thread(target=tick, daemon=True).start()
+
+    def stop(self) -> None:
+        self._stop.set()
+        if self.bar is not None:
+            self.bar.stop()
+            self.bar = None
+
+
 def config_table(config: dict[str, Any], title: str = "best configuration") -> Table:
     table = Table(title=title, title_justify="left", show_header=True, header_style="bold")
     table.add_column("parameter")
@@ -125,6 +164,8 @@ def print_detail(d: Any) -> None:
         kept = [f for f in d.families if f not in d.dropped]
         dropped = f" (dropped: {', '.join(d.dropped)})" if d.dropped else ""
         out.print(f"search: {', '.join(kept)}{dropped}; pruning {d.pruning}")
+    if d.row_ladder:
+        out.print(f"rows: {d.row_ladder}")
     if d.best_trial is not None:
         b = d.best_trial
         spread = f" ± {b.fold_std:.4f} across folds" if b.fold_std is not None else ""
@@ -218,14 +259,16 @@ def print_export(result: Any) -> None:
         plan = result.plan
         out.print(f"wrote {result.path}: an ensemble of {len(result.members)} trials, cross-fitted {result.metric} "
                   f"{plan['score']:.4f} against {plan['single']:.4f} for the best single trial "
-                  f"(fold noise {plan['noise']:.2g}){speed}; sha256 {result.sha256[:16]}…")
+                  f"(fold noise {plan['noise']:.2g}), refitted on {result.rows_words}{speed}; "
+                  f"sha256 {result.sha256[:16]}…")
         for member in result.members:
             out.print(f"  trial {member['trial']}: weight {member['weight']:.2f}")
         return
     rule = {"best": "the best", "one-se": "the cheapest within one standard error of the best",
             "trial": "as asked"}[result.chosen_by]
     out.print(f"wrote {result.path}: trial {result.trial} ({result.family}, {rule}), cross-validated "
-              f"{result.metric} {result.score:.4f}{speed}; sha256 {result.sha256[:16]}…")
+              f"{result.metric} {result.score:.4f}, refitted on {result.rows_words}{speed}; "
+              f"sha256 {result.sha256[:16]}…")
     if result.plan is not None:
         gain = result.plan["gain"]
         out.print(f"an ensemble would have added {gain:+.4g} (fold noise {result.plan['noise']:.2g}): "

@@ -5,6 +5,7 @@ from __future__ import annotations
 import platform
 import time
 import warnings
+from collections.abc import Callable
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
@@ -22,12 +23,30 @@ from tunelab.models import (
     check_columns,
     load_pipeline,
     read_meta,
+    row_cap,
     write_model_file,
 )
 from tunelab.ops._ensemble import ensemble_plan, fit_config, predict_ms, within_predict_limit
 from tunelab.ops._trials import Phases
-from tunelab.store import Store
+from tunelab.store import Store, TrialRecord, keys
 from tunelab.values import plain
+
+# A refit expected to take longer than this is announced, with a progress line (see ``Refit``).
+ANNOUNCE_REFIT_SECONDS = 5.0
+
+
+@dataclass(frozen=True)
+class Refit:
+    """What export is about to fit: the trials, on how many rows, and how long it should take."""
+
+    trials: tuple[int, ...]
+    rows: int
+    rows_words: str  # "all 400,000 rows", or the trial's row cap
+    expected_seconds: float  # from the trials' own fold fits, scaled to the refit's rows
+
+    @property
+    def worth_announcing(self) -> bool:
+        return self.expected_seconds > ANNOUNCE_REFIT_SECONDS
 
 
 @dataclass
@@ -44,6 +63,8 @@ class ExportResult:
     plan: dict[str, Any] | None = None  # what ensemble selection found, cross-fitted, shipped or not
     refit_seconds: float = 0.0
     predict_ms_per_1000: float = 0.0
+    rows: int = 0  # the rows the shipped model was refitted on
+    rows_words: str = ""  # "all 400,000 rows", or the trial's row cap
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -62,7 +83,8 @@ class PredictResult:
 
 def export_model(name: str, out: Path, *, store: str | None = None, trial: int | None = None,
                  choose_by: str = "best", ensemble: bool | None = None, max_members: int = MAX_MEMBERS,
-                 max_predict_ms: float | None = None, clock: Clock | None = None) -> ExportResult:
+                 max_predict_ms: float | None = None, clock: Clock | None = None,
+                 on_refit: Callable[[Refit], None] | None = None) -> ExportResult:
     """Refit the best (or a chosen) trial's pipeline, or an ensemble of trials, and write a model file.
 
     ``choose_by`` is the rule that picks the trial when ``trial`` is not given: ``best`` (the best
@@ -71,6 +93,10 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
     beats the best single trial by more than its fold noise (cross-fitted), else the single trial;
     ``True`` ships the ensemble anyway, ``False`` never.  ``max_members`` caps its distinct trials,
     ``max_predict_ms`` its prediction time per 1,000 rows (the lightest members are dropped).
+    ``on_refit`` hears what is about to be fitted and how long it should take, before the fit.
+
+    A trial is refitted on the rows it was scored on: all of them (a trial that reached every row
+    of its folds), or the stratified sample of its row cap.
     """
     clock = clock or SystemClock()
     if out.exists() and out.is_dir():
@@ -106,6 +132,9 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
         by_number = {t.number: t for t in trials}
         if plan is not None and (ensemble or plan.worth_it):
             configs = [phases.config(by_number[n]) for n, _ in plan.members]
+            refit = _refit([by_number[n] for n, _ in plan.members], configs, dataset.n_rows)
+            if on_refit is not None:
+                on_refit(refit)
             fitted = [fit_config(config, dataset, record.seed) for config in configs]
             model, ms, dropped = within_predict_limit(fitted, [w for _, w in plan.members], dataset, max_predict_ms)
             members = [(n, float(w), configs[i]) for i, ((n, _), w) in
@@ -116,9 +145,12 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
                 "dropped_for_speed": [plan.members[i][0] for i in dropped], "predict_ms_per_1000": ms}
         else:
             config = phases.config(chosen)
+            refit = _refit([chosen], [config], dataset.n_rows)
+            if on_refit is not None:
+                on_refit(refit)
             model = fit_config(config, dataset, record.seed)  # the size the search measured
             ms, ensemble_meta, members = predict_ms(model, dataset), None, []
-        refit = time.perf_counter() - started
+        seconds = time.perf_counter() - started
         meta = {
             "study": record.name, "trial": chosen.number if not members else members[0][0], "metric": record.metric,
             "direction": record.direction, "cv_score": chosen.value, "fold_scores": list(chosen.fold_scores) or None,
@@ -133,7 +165,23 @@ def export_model(name: str, out: Path, *, store: str | None = None, trial: int |
     how = "ensemble" if members else ("trial" if trial is not None else choose_by)
     return ExportResult(record.name, str(out), sha, shipped, record.metric, chosen.score,
                         str(config.get("family", "")), how, [{"trial": n, "weight": w} for n, w, _ in members],
-                        None if plan is None else plan.to_dict(), refit, ms)
+                        None if plan is None else plan.to_dict(), seconds, ms, refit.rows, refit.rows_words)
+
+
+def _refit(trials: list[TrialRecord], configs: list[dict[str, Any]], n_rows: int) -> Refit:
+    """The refit's rows and expected seconds: each trial's fold fits, scaled from a fold's rows to the refit's."""
+    caps = [row_cap(config) for config in configs]
+    rows = max(min(cap, n_rows) if cap else n_rows for cap in caps)
+    expected = 0.0
+    for trial, cap in zip(trials, caps, strict=True):
+        folds = max(2, len(trial.fold_scores))
+        fit = float(trial.attrs.get(keys.FIT_SECONDS) or trial.duration or 0.0)
+        per_fold = fit / folds
+        expected += per_fold if cap else per_fold * folds / (folds - 1)  # a fold trains on (k-1)/k of the rows
+    capped = len(caps) == 1 and caps[0] and caps[0] < n_rows
+    words = (f"a stratified sample of {rows:,} rows (the trial's row cap; it was scored on that many)" if capped
+             else f"all {n_rows:,} rows")
+    return Refit(tuple(t.number for t in trials), rows, words, expected)
 
 
 def _renormalised(plan: EnsemblePlan, dropped: list[int]) -> list[float]:
