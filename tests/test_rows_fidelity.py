@@ -177,7 +177,7 @@ def test_a_trial_killed_on_a_sample_rung_runs_again_once_from_its_first_rung(tmp
     space_file.write_text(json.dumps(space))
     store = tmp_path / "rows.db"
     args = ["--store", str(store), "--jobs", "1", "-q"]
-    run = subprocess.Popen([*TUNELAB, "run", str(data), "--target", "y", "--budget", "60s", "--study", "rows",
+    run = subprocess.Popen([*TUNELAB, "run", str(data), "--target", "y", "--budget", "20s", "--study", "rows",
                             "--space", str(space_file), "--no-portfolio", *args],
                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
     deadline = time.monotonic() + 90
