@@ -95,7 +95,7 @@ def test_a_rung_fits_the_first_fold_whole_on_its_sample_and_scores_all_its_held_
     assert len(result.fold_scores) == 3
     # step 1 is the sample's model scored on the whole held-out fold (scikit-learn's roc_auc_score)
     _, test = objective.folds[0]
-    sample = objective.rung_samples[0]
+    sample = objective.first_fold_rows(None)[1][0]
     pipeline = build_pipeline(config, mid_dataset.roles, {c.name: c.n_unique for c in mid_dataset.columns},
                               mid_dataset.task, seed=0, n_threads=1)
     pipeline.fit(mid_dataset.X.iloc[sample], mid_dataset.y[sample])
@@ -104,6 +104,20 @@ def test_a_rung_fits_the_first_fold_whole_on_its_sample_and_scores_all_its_held_
     assert reports[1] == pytest.approx(expected, abs=1e-9)
     assert objective.describe_step(1) == "fold 1 on 1/9 of its training rows"
     assert objective.describe_step(3) == "1 of 3 folds"
+
+
+def test_a_row_capped_familys_ladder_climbs_to_its_sample_not_to_all_rows(mid_dataset):
+    def objective(min_rung_rows: int) -> CrossValidationObjective:
+        return CrossValidationObjective(mid_dataset, METRICS["roc_auc"], seed=0, n_folds=3, row_shares=ROW_SHARES,
+                                        min_rung_rows=min_rung_rows)
+
+    every, _ = objective(50).first_fold_rows(None)
+    assert len(every) == len(objective(50).folds[0][0])
+    top, (low, mid) = objective(50).first_fold_rows(900)  # a family capped at 900 rows: rungs of 100 and 300
+    assert (len(top), len(low), len(mid)) == (900, 100, 300)
+    assert set(low) <= set(mid) <= set(top) <= set(every)
+    top, samples = objective(101).first_fold_rows(900)  # its bottom rung would be too small: no rungs
+    assert len(top) == 900 and samples == []
 
 
 def test_without_a_ladder_the_first_steps_are_thirds_of_a_fold(mid_dataset):

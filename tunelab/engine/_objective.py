@@ -58,14 +58,16 @@ from threadpoolctl import threadpool_limits
 
 from tunelab.data import Dataset
 from tunelab.evaluation import (
+    MIN_RUNG_ROWS,
     Metric,
     better,
     make_folds,
-    nested_samples,
     ranking_metric,
+    rung_rows,
     score,
     score_output,
     share_words,
+    stratified_order,
 )
 from tunelab.store import keys
 
@@ -176,6 +178,9 @@ class CrossValidationObjective:
     row_shares
         The row ladder's sample shares (at most ``STEPS_PER_FOLD - 1``, increasing), or none: the
         first fold is then fitted on those shares of its training rows first (steps 1, 2 …).
+    min_rung_rows
+        A row-capped family climbs its ladder only when the bottom rung of its sample has this
+        many rows.
     """
 
     dataset: Dataset
@@ -184,6 +189,7 @@ class CrossValidationObjective:
     n_threads: int = 1
     n_folds: int | None = None
     row_shares: tuple[float, ...] = ()
+    min_rung_rows: int = MIN_RUNG_ROWS
 
     def __post_init__(self) -> None:
         if len(self.row_shares) >= STEPS_PER_FOLD or list(self.row_shares) != sorted(set(self.row_shares)):
@@ -191,9 +197,10 @@ class CrossValidationObjective:
         self.folds = make_folds(self.dataset.y, self.dataset.task, self.seed, self.n_folds)
         self.cardinality = {c.name: c.n_unique for c in self.dataset.columns}
         train = self.folds[0][0]
-        # One seeded order of the first fold's training rows; each rung takes a prefix (nested).
-        self.rung_samples = nested_samples(train, self.dataset.y, self.dataset.task, self.row_shares,
-                                           self.seed + 1) if self.row_shares else []
+        # One seeded, stratified order of the first fold's training rows; each rung takes a prefix
+        # (nested), and so does a row-capped family's sample, the top of its ladder.
+        self.rung_order = stratified_order(train, self.dataset.y, self.dataset.task, self.seed + 1) \
+            if self.row_shares else None
 
     def describe_step(self, step: int) -> str:
         """How far a trial that stopped at ``step`` got, in words."""
@@ -237,14 +244,18 @@ class CrossValidationObjective:
         started = time.perf_counter()
         try:
             for fold, (train, test) in enumerate(self.folds, start=1):
-                train = capped_rows(train, y, self.dataset.task, cap, self.seed + fold)
+                samples: list[np.ndarray] = []
+                if fold == 1 and self.rung_order is not None:
+                    train, samples = self.first_fold_rows(cap)
+                else:
+                    train = capped_rows(train, y, self.dataset.task, cap, self.seed + fold)
                 pipeline = build_pipeline(settled_config(config, rounds), self.dataset.roles, self.cardinality,
                                           self.dataset.task, seed=self.seed, n_threads=self.n_threads)
                 with warnings.catch_warnings(), threadpool_limits(self.n_threads):
                     warnings.simplefilter("ignore")
                     held_out = _HeldOut(self.metric, y[test], self.dataset.classes)
-                    if fold == 1 and self.rung_samples and cap is None:
-                        self._climb(config, X.iloc[test], held_out, report)
+                    if samples:
+                        self._climb(config, samples, X.iloc[test], held_out, report)
                         first = fit_in_parts(pipeline, X.iloc[train], y[train], X.iloc[test], held_out, _silent)
                         fitted, rank, rounds, output = first.score, first.rank, first.rounds, first.output
                     elif fold == 1:
@@ -272,12 +283,29 @@ class CrossValidationObjective:
         kept = [p for p in predictions if p is not None] if all(p is not None for p in predictions) else None
         return TrialResult(value=float(np.mean(scores)), fold_scores=scores, extras=extras, predictions=kept)
 
-    def _climb(self, config: Mapping[str, Any], X_test: Any, held_out: _HeldOut, report: Report) -> None:
+    def first_fold_rows(self, cap: int | None) -> tuple[np.ndarray, list[np.ndarray]]:
+        """With a row ladder: the first fold's training rows (all, or a capped family's sample) and the
+        rung samples below them.
+
+        All are prefixes of one stratified order, so they are nested.  A capped family's sample whose
+        bottom rung would train on fewer than ``MIN_RUNG_ROWS`` rows gets no rungs (its trials start
+        on the whole sample); the uncapped top was checked when the ladder was chosen.
+        """
+        if self.rung_order is None:
+            raise ValueError("this objective has no row ladder")
+        capped = cap is not None and cap < len(self.rung_order)
+        top = self.rung_order[:cap] if capped else self.rung_order
+        if capped and rung_rows(self.row_shares[0], len(top)) < self.min_rung_rows:
+            return np.sort(top), []
+        return np.sort(top), [np.sort(top[:rung_rows(share, len(top))]) for share in self.row_shares]
+
+    def _climb(self, config: Mapping[str, Any], samples: list[np.ndarray], X_test: Any, held_out: _HeldOut,
+               report: Report) -> None:
         """The row rungs: the first fold fitted whole on each nested sample, its ranking score reported."""
         from tunelab.models import build_pipeline
 
         X, y = self.dataset.X, self.dataset.y
-        for step, sample in enumerate(self.rung_samples, start=1):
+        for step, sample in enumerate(samples, start=1):
             pipeline = build_pipeline(dict(config), self.dataset.roles, self.cardinality, self.dataset.task,
                                       seed=self.seed, n_threads=self.n_threads)
             fitted = fit_in_parts(pipeline, X.iloc[sample], y[sample], X_test, held_out, _silent)

@@ -88,7 +88,8 @@ def describe_ladder(shares: Sequence[float], n_fit: int | None = None) -> str:
     for share in shares:
         rows = f" ({rung_rows(share, n_fit):,} rows)" if n_fit else ""
         parts.append(f"{share_words(share)}{rows}")
-    return "fold 1 on " + ", then ".join([*parts, "all rows"]) + "; the other folds on all rows"
+    return ("fold 1 on " + ", then ".join([*parts, "all rows"]) + "; the other folds on all rows (a family "
+            "trained on a row sample climbs to its sample)")
 
 
 def share_words(share: float) -> str:
