@@ -55,9 +55,9 @@ JobsOpt = typer.Option("auto", "--jobs", "-j", metavar="N|auto", envvar="TUNELAB
                             "TUNELAB_JOBS sets the default.")
 RowsFidelityOpt = typer.Option("auto", "--rows-fidelity", metavar="auto|off",
                                help="auto: on a big table where few full-data trials fit the budget, trials start on "
-                                    "1/9, then 1/3 of a fold's rows, and only the good ones go on to all rows "
-                                    "(status shows the ladder). off: every trial on all rows. --pruning off also "
-                                    "turns it off.")
+                                    "1/9, then 1/3 of a fold's rows, and only the good ones go on to all rows (or to "
+                                    "the fixed sample of a family too slow for all of them; status shows the "
+                                    "ladder). off: every trial on all rows. --pruning off also turns it off.")
 HorizonOpt = typer.Option("10m", "--horizon", metavar="DURATION",
                           help="The stretch of search the forecast looks at, in study time, e.g. 10m or 1h.")
 WorthOpt = typer.Option(None, "--worth", metavar="GAIN",

@@ -47,8 +47,9 @@ def build_space(data: DataFacts, *, budget_seconds: float | None, workers: int =
         Processes that will search at once (how many full-data trials fit the budget).
     rows_fidelity
         ``auto``: on a big table where few full-data trials fit the budget, trials climb a row
-        ladder (``tunelab.evaluation.choose_ladder``; the spec's ``row_shares``) and no family
-        gets a fixed row cap; ``off``: every trial on all rows, slow families on a fixed sample.
+        ladder (``tunelab.evaluation.choose_ladder``; the spec's ``row_shares``), a family too slow
+        for every row climbing to its fixed sample; ``off``: every trial on all rows, slow families
+        on a fixed sample.
 
     Returns
     -------
