@@ -23,7 +23,7 @@ from pathlib import Path
 from typing import Any
 
 TUNELAB = [sys.executable, "-m", "tunelab"]
-PG_ADMIN_URL = os.environ.get("TUNELAB_TEST_PG", "postgresql://127.0.0.1:5432/test")
+PG_ADMIN_URL = os.environ.get("TUNELAB_TEST_POSTGRES", "postgresql://127.0.0.1:5432/test")
 
 
 @contextlib.contextmanager
@@ -175,7 +175,8 @@ def pg_database() -> Iterator[str]:
     from sqlalchemy import create_engine, text
 
     name = f"tl_{uuid.uuid4().hex[:12]}"
-    admin = create_engine(PG_ADMIN_URL.replace("postgresql://", "postgresql+psycopg2://"), isolation_level="AUTOCOMMIT")
+    admin = create_engine(PG_ADMIN_URL.replace("postgresql://", "postgresql+psycopg2://"), isolation_level="AUTOCOMMIT",
+                          connect_args={"connect_timeout": 5})
     with admin.connect() as conn:
         conn.execute(text(f'create database "{name}"'))
     try:

@@ -76,7 +76,6 @@ import sys
 import tempfile
 import time
 import traceback
-import uuid
 from collections import Counter
 from collections.abc import Callable, Iterator, Mapping
 from contextlib import contextmanager
@@ -199,22 +198,10 @@ def fresh_store(kind: str, workdir: Path, tag: str) -> Iterator[str]:
     if kind == "sqlite":
         yield str(workdir / f"{tag}.db")
         return
-    from sqlalchemy import create_engine, text
+    from benchmarks._faults import pg_database
 
-    name = f"tl_scaling_{uuid.uuid4().hex[:10]}"
-    admin = create_engine(PG_DRIVER_URL, isolation_level="AUTOCOMMIT", connect_args={"connect_timeout": 5})
-    try:
-        with admin.connect() as conn:
-            conn.execute(text(f'create database "{name}"'))
-        try:
-            yield PG_ADMIN_URL.rsplit("/", 1)[0] + "/" + name
-        finally:
-            with admin.connect() as conn:
-                conn.execute(text("select pg_terminate_backend(pid) from pg_stat_activity where datname = :n"),
-                             {"n": name})
-                conn.execute(text(f'drop database if exists "{name}"'))
-    finally:
-        admin.dispose()
+    with pg_database() as url:
+        yield url
 
 
 def run_point(kind: str, jobs: int, budget: float, sleep_seconds: float, seed: int, workdir: Path) -> dict[str, Any]:
