@@ -62,6 +62,7 @@ from tunelab.evaluation import (
     Metric,
     better,
     make_folds,
+    nested_prefixes,
     ranking_metric,
     rung_rows,
     score,
@@ -297,7 +298,7 @@ class CrossValidationObjective:
         top = self.rung_order[:cap] if capped else self.rung_order
         if capped and rung_rows(self.row_shares[0], len(top)) < self.min_rung_rows:
             return np.sort(top), []
-        return np.sort(top), [np.sort(top[:rung_rows(share, len(top))]) for share in self.row_shares]
+        return np.sort(top), nested_prefixes(top, self.row_shares)
 
     def _climb(self, config: Mapping[str, Any], samples: list[np.ndarray], X_test: Any, held_out: _HeldOut,
                report: Report) -> None:

@@ -22,6 +22,7 @@ from tunelab.evaluation._row_ladder import (
     LadderChoice,
     choose_ladder,
     describe_ladder,
+    nested_prefixes,
     nested_samples,
     rung_rows,
     share_words,
@@ -30,5 +31,5 @@ from tunelab.evaluation._row_ladder import (
 
 __all__ = ["DEFAULT_METRIC", "Direction", "LARGE_DATA_ROWS", "METRICS", "MIN_RUNG_ROWS", "Metric", "ROW_SHARES",
            "LadderChoice", "better", "choose_ladder", "describe_ladder", "fold_count", "make_folds",
-           "nested_samples", "ranking_metric", "resolve_metric", "rung_rows", "score", "score_output",
-           "share_words", "stratified_order"]
+           "nested_prefixes", "nested_samples", "ranking_metric", "resolve_metric", "rung_rows", "score",
+           "score_output", "share_words", "stratified_order"]

@@ -122,7 +122,11 @@ def stratified_order(rows: np.ndarray, y: np.ndarray, task: str, seed: int) -> n
 
 def nested_samples(rows: np.ndarray, y: np.ndarray, task: str, shares: Sequence[float], seed: int) -> list[np.ndarray]:
     """Each share's sample of ``rows``, sorted: stratified, nested, and the same for the same seed."""
-    order = stratified_order(rows, y, task, seed)
+    return nested_prefixes(stratified_order(rows, y, task, seed), shares)
+
+
+def nested_prefixes(order: np.ndarray, shares: Sequence[float]) -> list[np.ndarray]:
+    """Each share's prefix of a stratified ``order`` (see ``stratified_order``), sorted: nested samples."""
     return [np.sort(order[:rung_rows(share, len(order))]) for share in shares]
 
 
@@ -136,4 +140,4 @@ def _strata(y: np.ndarray, task: str) -> np.ndarray:
 
 
 __all__ = ["LADDER_BELOW_TRIALS", "LadderChoice", "MIN_RUNG_ROWS", "ROW_SHARES", "choose_ladder",
-           "describe_ladder", "nested_samples", "rung_rows", "share_words", "stratified_order"]
+           "describe_ladder", "nested_prefixes", "nested_samples", "rung_rows", "share_words", "stratified_order"]
