@@ -24,8 +24,10 @@ lint: $(STAMP)
 	$(BIN)/ruff check tunelab tests benchmarks studies
 	$(BIN)/mypy
 
+# Two pytest workers, one test file each at a time: the tests run trials on one core (TUNELAB_JOBS=1),
+# so a second worker uses the machine's second core instead of leaving it idle.
 test: lint
-	$(BIN)/python -m pytest -q -p no:cacheprovider
+	$(BIN)/python -m pytest -q -p no:cacheprovider -n 2 --dist loadfile
 
 test-fast: lint
 	$(BIN)/python -m pytest -q -m "not slow"

@@ -49,7 +49,7 @@ def datetime_parts(frame: Any) -> np.ndarray:
     for name in frame.columns:
         col = pd.to_datetime(frame[name], errors="coerce")
         days = (col - pd.Timestamp("1970-01-01")).dt.total_seconds() / 86400.0
-        parts += [col.dt.year, col.dt.month, col.dt.dayofweek, col.dt.hour, days]
+        parts += [col.dt.year, col.dt.month, col.dt.day_of_week, col.dt.hour, days]
     return np.column_stack([np.asarray(p, dtype=float) for p in parts]) if parts else np.empty((len(frame), 0))
 
 
