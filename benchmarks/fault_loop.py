@@ -61,6 +61,11 @@ def _one_line(stderr: str) -> bool:
     return len(lines) == 1 and lines[0].startswith("tunelab: error: ") and "Traceback" not in stderr
 
 
+def _last(stderr: str) -> str:
+    lines = [ln for ln in (stderr or "").strip().splitlines() if ln.strip()]
+    return lines[-1][:160] if lines else "(no message)"
+
+
 def _ledger(store: str, study: str) -> float:
     from tunelab.store import Store
 
@@ -84,7 +89,9 @@ def disk_full(rng: random.Random) -> dict[str, Any]:
               and resumed.returncode == 0 and after.integrity == "ok" and after.states.get("RUNNING", 0) == 0)
         return {"survived": ok, "lost": len(before.complete - after.complete) if before else 0,
                 "duplicated": sum(n - 1 for n in after.retries.values() if n > 1),
-                "ledger_error": None, "filled": first.returncode == 2}
+                "ledger_error": None, "filled": first.returncode == 2,
+                "why": f"run exit {first.returncode}, resume exit {resumed.returncode}: "
+                       f"{_last(resumed.stderr or first.stderr)}"}
 
 
 def connection_drop(rng: random.Random) -> dict[str, Any]:
@@ -104,7 +111,8 @@ def connection_drop(rng: random.Random) -> dict[str, Any]:
     link.close()
     ok = run.returncode == 0 and "Traceback" not in err and after.states.get("RUNNING", 0) == 0
     return {"survived": ok, "lost": len(before.complete - after.complete),
-            "duplicated": sum(n - 1 for n in after.retries.values() if n > 1), "ledger_error": None}
+            "duplicated": sum(n - 1 for n in after.retries.values() if n > 1), "ledger_error": None,
+            "why": f"run exit {run.returncode}: {_last(err)}"}
 
 
 def frozen_worker(rng: random.Random) -> dict[str, Any]:
@@ -137,7 +145,8 @@ def frozen_worker(rng: random.Random) -> dict[str, Any]:
               and states[1:] == ["lost"])
         return {"survived": ok, "lost": len(before.complete - after.complete),
                 "duplicated": sum(n - 1 for n in after.retries.values() if n > 1),
-                "ledger_error": abs(_ledger(str(store), "w") - worked)}
+                "ledger_error": abs(_ledger(str(store), "w") - worked),
+                "why": f"run exit {run.returncode}, launches {states}: {_last(err)}"}
 
 
 RUNNERS = {"disk": disk_full, "connection": connection_drop, "frozen": frozen_worker}
@@ -154,8 +163,14 @@ def main() -> int:
     print(f"{'fault':12} {'runs':>5} {'survived':>9} {'trials lost':>12} {'duplicated':>11} {'ledger error (s)':>17}")
     for fault in args.faults.split(","):
         results = []
-        for _ in range(args.runs):
-            results.append(RUNNERS[fault](rng))
+        for i in range(args.runs):
+            result = RUNNERS[fault](rng)
+            results.append(result)
+            ledger = result.get("ledger_error")
+            print(f"  {fault} {i + 1}/{args.runs}: {'survived' if result['survived'] else 'FAILED'}, "
+                  f"lost {result['lost']}, duplicated {result['duplicated']}"
+                  + (f", ledger error {ledger:.1f} s" if ledger is not None else "") + f" ({result['why']})",
+                  file=sys.stderr, flush=True)
         errors = [r["ledger_error"] for r in results if r.get("ledger_error") is not None]
         worst = f"{max(errors):.1f}" if errors else "-"
         print(f"{fault:12} {len(results):5d} {sum(r['survived'] for r in results):9d} "

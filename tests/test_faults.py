@@ -95,7 +95,8 @@ def test_sqlites_page_limit_gives_a_real_disk_full_error_and_nothing_is_lost(tmp
     monkeypatch.setattr(_store, "_sqlite_pragmas", limited)
     result = cli("resume", "p", "--more-trials", "10", "--store", str(store), "-q")  # fills within a few trials
     assert result.code == 2
-    assert one_line(result.err).startswith(f"tunelab: error: disk full at {store}")
+    line = one_line(result.err)
+    assert line.startswith(f"tunelab: error: disk full at {store}") and "then tunelab resume p" in line
     facts = read_store(store)
     assert facts.integrity == "ok" and len(facts.complete) >= 2
     monkeypatch.setattr(_store, "_sqlite_pragmas", pragmas)

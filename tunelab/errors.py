@@ -50,12 +50,14 @@ class StoreError(TunelabError):
     """The store cannot be opened, is not a tunelab store, or was written by a newer tunelab.
 
     ``transient`` marks a fault that may pass on its own (a lost or refused connection): a search
-    waits and tries again for a while before it gives up.
+    waits and tries again for a while before it gives up. ``disk_full`` marks a full disk, whose
+    hint names the study to resume once the block that knows the study sees it.
     """
 
-    def __init__(self, message: str, hint: str = "", *, transient: bool = False) -> None:
+    def __init__(self, message: str, hint: str = "", *, transient: bool = False, disk_full: bool = False) -> None:
         super().__init__(message, hint)
         self.transient = transient
+        self.disk_full = disk_full
 
 
 class StudyNotFound(StoreError):

@@ -223,7 +223,9 @@ class Store:
         """Turn a database fault inside the block (optuna's included) into a one-line store error."""
         try:
             yield
-        except StoreError:
+        except StoreError as exc:
+            if exc.disk_full and study:
+                raise StoreError(exc.message, f"free space, then tunelab resume {study}", disk_full=True) from exc
             raise
         except Exception as exc:
             failure = self.translate(exc, doing, study)
@@ -598,7 +600,7 @@ def _store_error(location: Location, doing: str, exc: DBAPIError, study: str | N
     lowered = text.lower()
     again = f"tunelab resume {study}" if study else "run the command again"
     if "disk is full" in lowered or "no space left" in lowered or "disk full" in lowered:
-        return StoreError(f"disk full at {where}", f"free space, then {again}")
+        return StoreError(f"disk full at {where}", f"free space, then {again}", disk_full=True)
     if "not a database" in lowered or "malformed" in lowered:
         return StoreError(f"{where} is corrupt or not a SQLite database",
                           "pass another --store; keep the file for inspection")
