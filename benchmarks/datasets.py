@@ -27,7 +27,9 @@ Two lists use these rules. The *suite* (:func:`names`, :func:`get`) is what ``su
 the sixteen tables of the first protocol first, in their old order (``learn_from.py`` and
 ``space_priors.py`` alternate their arms by that position), then the fourteen added with the
 two-metric protocol. The *corpus* (``corpus.json``, :func:`corpus_names`, :func:`corpus_get`)
-is a second, disjoint list kept for learning offline; none of the benchmarks runs it. Both load
+is a second, disjoint list for learning offline: ``build_portfolio.py`` scores it to build the
+shipped portfolio and ``portfolio_eval.py`` leaves one table of it out at a time; no benchmark that
+judges tunelab runs it. Both load
 through the same code: :func:`declared` turns a (package, dataset, target, dropped columns)
 declaration into an entry, and :func:`load` applies the rules above to any entry.
 
