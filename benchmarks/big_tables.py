@@ -70,6 +70,7 @@ from benchmarks._tunelab_cli import default_executable, read_predictions  # noqa
 TARGET = "target"
 SAMPLE_SECONDS = 0.2
 ARMS = ("rows-fidelity", "all-rows", "default-gb")
+ORDER = (*ARMS, "baseline")  # the table's row order; "baseline" only with --baseline
 FLIGHTS_KEEP = ["month", "day", "sched_dep_time", "sched_arr_time", "carrier", "flight", "origin", "dest",
                 "distance", "time_hour"]
 LATE_MINUTES = 15  # the usual on-time line for flights; common practice, no source
@@ -216,9 +217,14 @@ def _trial_counts(store: Path, study: str, ladder: bool) -> dict[str, Any]:
             "row_shares": shares}
 
 
-def tunelab_arm(table: str, split: Split, seed: int, arm: str, jobs: int, budget: str, workdir: Path) -> ArmResult:
-    """Search, export and predict with the command line, as a user would; score the predictions here."""
-    exe = default_executable()
+def tunelab_arm(table: str, split: Split, seed: int, arm: str, jobs: int, budget: str, workdir: Path,
+                exe: str | None = None) -> ArmResult:
+    """Search, export and predict with the command line, as a user would; score the predictions here.
+
+    ``exe`` is the tunelab to run (default: the one beside this Python); the ``baseline`` arm passes
+    another build, such as one from a worktree at an earlier commit, to measure a change side by side.
+    """
+    exe = exe or default_executable()
     folder = workdir / f"{table}-seed{seed}" / f"{arm}-jobs{jobs}"
     folder.mkdir(parents=True, exist_ok=True)
     store, model, preds = folder / "store.db", folder / "model.zip", folder / "preds.csv"
@@ -311,7 +317,7 @@ def summarise(results: list[ArmResult]) -> str:
     """One line per (table, arm): means over seeds, and the spread of the test score."""
     lines = ["| table | arm | jobs | seeds | scored on a full fold | complete | best CV | test ROC AUC (sd) "
              "| run s | peak PSS MB |", "|---|---|---:|---:|---:|---:|---:|---:|---:|---:|"]
-    keys = sorted({(r.table, r.arm, r.jobs) for r in results}, key=lambda k: (k[0], ARMS.index(k[1]), -k[2]))
+    keys = sorted({(r.table, r.arm, r.jobs) for r in results}, key=lambda k: (k[0], ORDER.index(k[1]), -k[2]))
     for table, arm, jobs in keys:
         rows = [r for r in results if (r.table, r.arm, r.jobs) == (table, arm, jobs) and not r.error]
 
@@ -327,6 +333,21 @@ def summarise(results: list[ArmResult]) -> str:
     return "\n".join(lines)
 
 
+def paired_difference(results: list[ArmResult], arm: str, other: str) -> str:
+    """Per seed, ``arm``'s test score minus ``other``'s on the same split; their mean and standard error."""
+    by = {(r.table, r.arm, r.seed): r.test_roc_auc for r in results if r.test_roc_auc is not None}
+    lines = []
+    for table in sorted({r.table for r in results}):
+        diffs = [by[(table, arm, seed)] - by[(table, other, seed)] for (t, a, seed) in by
+                 if t == table and a == arm and (table, other, seed) in by]
+        if not diffs:
+            continue
+        se = float(np.std(diffs, ddof=1) / np.sqrt(len(diffs))) if len(diffs) > 1 else float("nan")
+        lines.append(f"{table}: {arm} minus {other}, test ROC AUC per seed "
+                     f"{', '.join(f'{d:+.4f}' for d in diffs)}; mean {np.mean(diffs):+.4f}, standard error {se:.4f}")
+    return "\n".join(lines)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--tables", default="big-400k", help="comma-separated: big-100k, big-400k, big-1m, flights")
@@ -337,6 +358,9 @@ def main() -> None:
     parser.add_argument("--memory", action="store_true", help="also rows-fidelity at --jobs 1 on the first seed")
     parser.add_argument("--profile", action="store_true", help="also measure tunelab profile's peak PSS")
     parser.add_argument("--workdir", type=Path, default=Path("/tmp/tunelab-big"))
+    parser.add_argument("--baseline", default=None, metavar="EXE",
+                        help="also the arm 'baseline': rows fidelity on, with this tunelab executable (an earlier "
+                             "build, to measure a change side by side in one run)")
     args = parser.parse_args()
     started = datetime.now(timezone.utc)
     tables, seeds = args.tables.split(","), [int(s) for s in args.seeds.split(",")]
@@ -352,9 +376,12 @@ def main() -> None:
             plan = [(arm, args.jobs) for arm in arms if arm != "default-gb"]
             if args.memory and seed == seeds[0]:
                 plan.append(("rows-fidelity", 1))
+            if args.baseline:
+                plan.append(("baseline", args.jobs))
             for arm, jobs in plan:
                 print(f"  {table} seed {seed}: {arm} --jobs {jobs} …", flush=True)
-                result = tunelab_arm(table, split, seed, arm, jobs, args.budget, args.workdir)
+                result = tunelab_arm(table, split, seed, arm, jobs, args.budget, args.workdir,
+                                     exe=args.baseline if arm == "baseline" else None)
                 results.append(result)
                 print(f"    full fold {result.full_fold}, complete {result.complete}, CV {_fmt(result.best_cv)}, "
                       f"test {_fmt(result.test_roc_auc)}, run {_fmt(result.run_seconds, 0)} s, "
@@ -372,6 +399,8 @@ def main() -> None:
                 print(f"    profile: {extra[f'{table}-profile']}", flush=True)
     print()
     print(summarise(results))
+    if args.baseline:
+        print(paired_difference(results, "rows-fidelity", "baseline"))
     for table in tables:
         one = [r for r in results if r.table == table and r.arm == "rows-fidelity" and r.seed == seeds[0]]
         by_jobs = {r.jobs: r.peak_pss_mb for r in one if r.peak_pss_mb}

@@ -171,6 +171,17 @@ def test_work_knobs_are_capped_so_a_trial_fits_in_a_quarter_of_the_budget() -> N
     assert roomy.families["hist_gb"].params["max_iter"].high == 500
 
 
+def test_when_the_budget_caps_boosting_rounds_the_step_size_floor_rises_so_rounds_times_step_reaches_12() -> None:
+    # rounds x step of 12-20 matched the library default at equal cost on big-400k; 6 fell far
+    # below (docs/experiments/big-tables.md): a capped search must not spend its trials down there.
+    slow = dict(CHEAP, hist_gb=10.0, random_forest=10.0)
+    capped = _space("small", budget=60.0, costs=slow).families["hist_gb"].params
+    step, rounds = capped["learning_rate"], capped["max_iter"]
+    assert rounds.high < 500 and step.low * rounds.high >= 12 - 1e-9 and step.high > step.low
+    roomy = _space("small", budget=3600.0, costs=slow).families["hist_gb"].params
+    assert roomy["learning_rate"].low == 0.01 and roomy["learning_rate"].high == 0.3  # uncapped: as before
+
+
 def test_a_family_is_left_out_when_even_its_smallest_work_does_not_fit() -> None:
     space = _space("small", budget=60.0, costs=dict(CHEAP, extra_trees=100.0))
     assert "extra_trees" not in space.families

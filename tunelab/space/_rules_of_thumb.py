@@ -31,6 +31,7 @@ KNN_MAX_WIDTH = 50  # distances lose contrast in many dimensions; common practic
 WARM_SHARE = 0.5  # warm starts may plan up to half the budget; the rest is for the search
 TRIALS_PER_FAMILY = 3  # trials at its centre each kept family must have room for
 MIN_SAMPLE_ROWS = 2_000  # fewer training rows than this are too few to judge a family by; no source
+ROUNDS_TIMES_STEP = 12.0  # capped boosting: rounds x step at least this; one table (docs/experiments/big-tables.md)
 SAMPLE_ROOM = 3.0  # a row sample leaves room for about 60 rounds or trees, not just the minimum 20
 IMBALANCE_HIGH = 3.0  # largest class over smallest; common practice, no source
 NOISY_SIGNAL = 0.6  # best landmarker gain over guessing below this: a noisy target; no source
@@ -50,6 +51,6 @@ HIST_GB_PRIORS: dict[str, dict[str, float]] = {
 
 __all__ = ["GAP_WEIGHT", "HIST_GB_PRIORS", "IMBALANCE_HIGH", "KNN_MAX_WIDTH", "KNN_SHARE_MAX", "LANDMARK_CLOSE",
            "MIN_SAMPLE_ROWS", "MLP_MIN_ROWS", "MLP_SHARE", "MLP_SHARE_SHARED_SCALE", "NOISY_SIGNAL",
-           "REFERENCE_BUDGET_S",
+           "REFERENCE_BUDGET_S", "ROUNDS_TIMES_STEP",
            "SAMPLE_ROOM", "SCORE_FLOOR", "SHARED_SCALE_MLP_POINTS", "STRENGTH", "SVM_MAX_ROWS", "SVM_SHARE_MAX",
            "TRIALS_PER_FAMILY", "TRIAL_SHARE_MAX", "WARM_SHARE"]
