@@ -83,8 +83,11 @@ if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
 from benchmarks import datasets  # noqa: E402
-from tunelab.space import Member, portfolio_document  # noqa: E402
-from tunelab.space._portfolio import SHIPPED  # noqa: E402
+from tunelab.space import (  # noqa: E402
+    SHIPPED_PORTFOLIO as SHIPPED,
+    Member,
+    portfolio_document,
+)
 
 FAMILIES = ("hist_gb", "random_forest", "extra_trees", "linear", "svm", "knn")
 # The share of the sampled candidates each family is drawn with: boosting most, as it wins most often.

@@ -80,12 +80,11 @@ def _arm(arm: str, later: Path, test: Path, spec: datasets.DatasetSpec, budget: 
 def _carried(store: str, study: str, best: int | None) -> dict[str, Any]:
     import optuna
 
-    from tunelab.ops._learn import LEARNED_ATTR
-    from tunelab.store import Store
+    from tunelab.store import Store, keys
 
     with Store.open(store) as st:
         trials = optuna.load_study(study_name=study, storage=st.optuna_storage()).trials
-    carried = [t.number for t in trials if t.user_attrs.get(LEARNED_ATTR)]
+    carried = [t.number for t in trials if t.user_attrs.get(keys.LEARNED_FROM)]
     return {"carried": len(carried), "best_carried": best in carried}
 
 

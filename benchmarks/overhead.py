@@ -132,7 +132,7 @@ def time_optuna(trials: int, seed: int, storage: str | None = None) -> Timing:
     """Plain optuna with the same sampler settings and space; in memory unless ``storage`` is a URL."""
     import optuna
 
-    from tunelab.ops._run import make_sampler
+    from tunelab.engine import make_sampler
 
     optuna.logging.set_verbosity(optuna.logging.WARNING)
     stamps = _Stamps()

@@ -163,12 +163,12 @@ def _worker_main(store: str, study: str, sleep_seconds: float, barrier: Any, res
         import sqlalchemy  # noqa: F401
 
         from tunelab.ops import join_objective_study
-        from tunelab.store import _store
+        from tunelab.store import Store
 
         handler = _ErrorLog()
         for name in ("optuna", "sqlalchemy", "tunelab"):
             logging.getLogger(name).addHandler(handler)
-        original_beat = _store.Store.beat
+        original_beat = Store.beat
 
         def counted_beat(self: Any, *args: Any, **kwargs: Any) -> None:
             try:
@@ -177,7 +177,7 @@ def _worker_main(store: str, study: str, sleep_seconds: float, barrier: Any, res
                 errors.append(f"heartbeat: {type(exc).__name__}: {str(exc).splitlines()[0][:300]}")
                 raise
 
-        _store.Store.beat = counted_beat  # type: ignore[method-assign]  # this process only
+        Store.beat = counted_beat  # type: ignore[method-assign]  # this process only
         objective = SleepObjective(sleep_seconds)
         barrier.wait(timeout=BARRIER_TIMEOUT_SECONDS)
         cpu0 = time.process_time()
@@ -461,7 +461,7 @@ def _plain_worker_main(backend: str, path: str, index: int, seed: int, budget: f
     try:
         import optuna
 
-        from tunelab.ops._run import make_sampler
+        from tunelab.engine import make_sampler
 
         optuna.logging.set_verbosity(optuna.logging.WARNING)  # "Trial N finished" lines are not errors
         handler = _ErrorLog()

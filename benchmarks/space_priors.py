@@ -73,7 +73,7 @@ class ArmResult:
 def _space_for(arm: str, train: Path, spec: datasets.DatasetSpec, budget: float, seed: int) -> tuple[Any, float]:
     """The arm's space and the seconds spent building it (charged to the built arm only)."""
     from tunelab.data import load_dataset
-    from tunelab.ops._profile import built_space
+    from tunelab.ops import built_space
     from tunelab.space import default_space
 
     started = time.perf_counter()

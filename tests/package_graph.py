@@ -69,6 +69,20 @@ def private_crossings() -> list[tuple[str, str, int]]:
     return sorted(set(out))
 
 
+def private_imports_from(folder: Path) -> list[tuple[str, str, int]]:
+    """Imports of any tunelab package's private module (``tunelab.X._y``) by the scripts in ``folder``
+    (benchmarks, studies): they use tunelab as its users do, through the packages' public names."""
+    modules = _modules()
+    out = []
+    for path in sorted(folder.rglob("*.py")):
+        for name, line in _imports(path.stem, path):
+            parts = name.split(".")
+            if parts[0] == "tunelab" and len(parts) >= 3 and name in modules and parts[2].startswith("_") \
+                    and not parts[2].startswith("__"):
+                out.append((str(path.relative_to(folder.parent)), name, line))
+    return sorted(set(out))
+
+
 def import_edges(detail: bool = False) -> set[tuple]:
     """Package -> package edges (with ``detail``: module -> imported package, and the line)."""
     modules = _modules()

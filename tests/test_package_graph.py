@@ -7,7 +7,15 @@ a longer loop.  ``python tests/package_graph.py`` prints the graph these tests r
 
 from __future__ import annotations
 
-from package_graph import OPTUNA_ALLOWED, cycles, import_edges, optuna_importers, private_crossings
+from package_graph import (
+    OPTUNA_ALLOWED,
+    ROOT,
+    cycles,
+    import_edges,
+    optuna_importers,
+    private_crossings,
+    private_imports_from,
+)
 
 
 def test_optuna_is_imported_only_by_the_store_the_engine_the_importance_adapter_and_the_space_spec():
@@ -19,6 +27,12 @@ def test_optuna_is_imported_only_by_the_store_the_engine_the_importance_adapter_
 def test_no_module_imports_another_packages_private_module():
     crossings = [f"{module} imports {target} (line {line})" for module, target, line in private_crossings()]
     assert crossings == [], "; ".join(crossings)
+
+
+def test_benchmarks_and_studies_use_only_the_packages_public_names():
+    found = [f"{script} imports {target} (line {line})" for folder in ("benchmarks", "studies")
+             for script, target, line in private_imports_from(ROOT.parent / folder)]
+    assert found == [], "; ".join(found)
 
 
 def test_no_import_cycle_between_packages():

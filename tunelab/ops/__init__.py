@@ -10,7 +10,7 @@ from tunelab.ops._insight import (
 )
 from tunelab.ops._learn import Neighbour, similar_studies
 from tunelab.ops._portfolio import PortfolioStarts, data_shape, portfolio_starts
-from tunelab.ops._profile import ProfileReport, profile_data
+from tunelab.ops._profile import ProfileReport, built_space, profile_data
 from tunelab.ops._report import ReportResult, default_report_path, report_data, write_report
 from tunelab.ops._run import (
     RunRequest,
@@ -27,7 +27,7 @@ from tunelab.ops._status import StudyDetail, StudyLine, TrialLine, list_studies,
 
 __all__ = [
     "DecisionOptions", "ExportResult", "FreezeResult", "Neighbour", "PortfolioStarts", "PredictResult",
-    "ProfileReport", "ReportResult", "data_shape", "portfolio_starts",
+    "ProfileReport", "ReportResult", "built_space", "data_shape", "portfolio_starts",
     "RunRequest", "RunResult", "StudyDetail", "StudyLine", "StudyStart", "TrialLine", "create_objective_study",
     "decisions_for", "default_report_path", "export_model", "freeze_parameters", "join_objective_study",
     "list_studies", "predict_file", "profile_data", "report_data", "resume_study", "run_objective_study",
