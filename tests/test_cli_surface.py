@@ -92,3 +92,12 @@ def test_jobs_must_be_auto_or_a_whole_number(cli, small_csv, store_path):
     result = cli("run", str(small_csv), "--target", "y", "--trials", "1", "--jobs", "0", "--store", str(store_path))
     assert result.code == 2 and "--jobs must be at least 1" in result.err
     assert not store_path.exists()
+
+
+def test_a_run_keeps_optunas_own_warnings_off_the_terminal(cli, store_path, small_csv):
+    # optuna logs its storage's retries as warnings ("Falling back to a slower alternative" when a
+    # connection drops, seen in benchmarks/fault_loop.py); tunelab reports store faults itself.
+    import optuna
+
+    assert cli("run", str(small_csv), "--target", "y", "--trials", "2", "--store", str(store_path), "-q").code == 0
+    assert optuna.logging.get_verbosity() == optuna.logging.ERROR

@@ -92,6 +92,59 @@ def test_a_trial_another_worker_marked_interrupted_is_not_overwritten(store_path
     st.close()
 
 
+def _lose_the_next_acknowledgement(st):
+    """The next commit reaches the database, then the driver reports an error: a connection lost at
+    the commit, as a PostgreSQL server that committed just before the network dropped leaves it."""
+    import sqlite3
+
+    dialect = st.optuna_storage()._backend.engine.dialect
+    commit, armed = dialect.do_commit, [True]
+
+    def do_commit(dbapi_connection):
+        commit(dbapi_connection)
+        if armed and armed.pop():
+            raise sqlite3.OperationalError("server closed the connection unexpectedly")
+
+    dialect.do_commit = do_commit
+
+
+def test_a_write_that_landed_although_its_commit_failed_is_not_written_twice(store_path):
+    # Seen in benchmarks/fault_loop.py on PostgreSQL: the retried write inserted the parameters again
+    # and the search stopped on "duplicate key value violates unique constraint".
+    st, study = _study(store_path)
+    trial = study.ask()
+    x = trial.suggest_float("x", 0, 1)
+    trial.report(0.5, 1)
+    _lose_the_next_acknowledgement(st)
+    with pytest.raises(Exception) as lost:  # optuna wraps the driver's error
+        st.optuna_storage().flush()
+    assert "server closed" in str(lost.value.__cause__ or lost.value)
+    assert _fresh_read(store_path)[0].params == {"x": x}  # it landed
+    trial.set_user_attr("fold_scores", [0.7])
+    study.tell(trial, 0.7)  # the retry: no duplicate rows, no unique-constraint error
+    seen = _fresh_read(store_path)[0]
+    assert seen.state == optuna.trial.TrialState.COMPLETE and seen.params == {"x": x}
+    assert seen.intermediate_values == {1: 0.5} and seen.user_attrs["fold_scores"] == [0.7]
+    st.close()
+
+
+def test_a_final_state_that_landed_although_its_commit_failed_is_taken_as_written(store_path):
+    st, study = _study(store_path)
+    trial = study.ask()
+    trial.suggest_float("x", 0, 1)
+    _lose_the_next_acknowledgement(st)
+    with pytest.raises(Exception) as lost:
+        study.tell(trial, 0.9)
+    assert "server closed" in str(lost.value.__cause__ or lost.value)
+    storage = st.optuna_storage()
+    assert storage.running_here() == [0]  # this process still thinks it holds the trial ...
+    storage.flush()  # ... until the next write reads back that its end is already in the database
+    assert storage.running_here() == []
+    seen = _fresh_read(store_path)[0]
+    assert seen.state == optuna.trial.TrialState.COMPLETE and seen.value == 0.9
+    st.close()
+
+
 def test_a_queued_config_is_claimed_and_run_by_one_process(store_path):
     st, study = _study(store_path)
     study.enqueue_trial({"x": 0.25})

@@ -89,7 +89,8 @@ def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, 
     pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
                          expected_trials=record.settings.get("expected_trials"),
                          row_rungs=len(record.settings.get(keys.ROW_SHARES) or ()))
-    optuna.logging.set_verbosity(optuna.logging.WARNING)  # tunelab reports study creation itself
+    if optuna.logging.get_verbosity() < optuna.logging.WARNING:  # tunelab reports study creation itself;
+        optuna.logging.set_verbosity(optuna.logging.WARNING)  # the command line keeps its own, stricter level
     storage = store.optuna_storage()
     fresh = create
     if not create:

@@ -100,6 +100,9 @@ class LocalTrialStorage(_CachedStorage):
         self._pending: dict[int, _Batch] = {}
         self._stored: dict[int, set[tuple[str, Any]]] = {}  # rows of a local trial already in the database
         self._fresh = False  # whether the cache has read the other processes' trials since our last write
+        # Trials whose last write failed: it may have reached the database all the same (a connection
+        # lost at the commit), so the next write reads back which rows are there before inserting.
+        self._unsure: set[int] = set()
 
     # ---- trials this process runs ------------------------------------------------------------
     def create_new_trial(self, study_id: int, template_trial: FrozenTrial | None = None) -> int:
@@ -177,11 +180,16 @@ class LocalTrialStorage(_CachedStorage):
             batch = self._pending[trial_id]
             self._pending[trial_id] = _Batch()
             stored = set(self._stored[trial_id])
+        unsure, ended = trial_id in self._unsure, False
         try:
             with _create_scoped_session(self._backend.scoped_session) as session:
                 trial = models.TrialModel.find_or_raise_by_id(trial_id, session, for_update=state is not None)
-                self._backend.check_trial_is_updatable(trial_id, trial.state)
-                _write_batch(session, trial_id, batch, stored)
+                if unsure:
+                    stored = _rows_in_database(session, trial_id)
+                    ended = trial.state.is_finished()  # the failed write was the trial's end, and it landed
+                if not ended:
+                    self._backend.check_trial_is_updatable(trial_id, trial.state)
+                    _write_batch(session, trial_id, batch, stored)
                 if state is not None:
                     for objective, value in enumerate(values or ()):
                         self._backend._set_trial_value_without_commit(session, trial, objective, value)
@@ -191,10 +199,12 @@ class LocalTrialStorage(_CachedStorage):
         except BaseException:
             with self._lock:  # keep what was not written, ahead of anything recorded since
                 self._pending[trial_id] = batch.then(self._pending[trial_id])
+                self._unsure.add(trial_id)
             raise
         with self._lock:
+            self._unsure.discard(trial_id)
             self._stored[trial_id] = stored
-            if state is not None and state.is_finished():
+            if ended or (state is not None and state.is_finished()):
                 for table in (self._local, self._pending, self._stored):
                     table.pop(trial_id, None)
         self._fresh = False
@@ -300,6 +310,20 @@ class _Batch:
     def then(self, later: _Batch) -> _Batch:
         return _Batch({**self.params, **later.params}, {**self.user, **later.user},
                       {**self.system, **later.system}, {**self.steps, **later.steps})
+
+
+def _rows_in_database(session: Any, trial_id: int) -> set[tuple[str, Any]]:
+    """The parameter, attribute and report rows the database holds for one trial, as ``_write_batch`` names them."""
+    params = models.TrialParamModel.__table__
+    found: set[tuple[str, Any]] = {("param", name) for (name,) in
+                                   session.execute(select(params.c.param_name).where(params.c.trial_id == trial_id))}
+    for kind, model in (("user", models.TrialUserAttributeModel), ("system", models.TrialSystemAttributeModel)):
+        table = model.__table__
+        found |= {(kind, key) for (key,) in session.execute(select(table.c.key).where(table.c.trial_id == trial_id))}
+    steps = models.TrialIntermediateValueModel.__table__
+    found |= {("step", step) for (step,) in
+              session.execute(select(steps.c.step).where(steps.c.trial_id == trial_id))}
+    return found
 
 
 def _write_batch(session: Any, trial_id: int, batch: _Batch, stored: set[tuple[str, Any]]) -> None:
