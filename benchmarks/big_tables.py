@@ -218,7 +218,7 @@ def _trial_counts(store: Path, study: str, ladder: bool) -> dict[str, Any]:
 
 
 def tunelab_arm(table: str, split: Split, seed: int, arm: str, jobs: int, budget: str, workdir: Path,
-                exe: str | None = None) -> ArmResult:
+                exe: str | None = None, run_args: tuple[str, ...] = ()) -> ArmResult:
     """Search, export and predict with the command line, as a user would; score the predictions here.
 
     ``exe`` is the tunelab to run (default: the one beside this Python); the ``baseline`` arm passes
@@ -234,7 +234,7 @@ def tunelab_arm(table: str, split: Split, seed: int, arm: str, jobs: int, budget
     fidelity = "off" if arm == "all-rows" else "auto"
     ran = run_measured([exe, "run", str(split.train_csv), "--target", TARGET, "--budget", budget, "--store",
                         str(store), "--study", "big", "--seed", str(seed), "--jobs", str(jobs), "-q",
-                        "--rows-fidelity", fidelity], timeout=3600)
+                        "--rows-fidelity", fidelity, *run_args], timeout=3600)
     result.run_seconds, result.peak_pss_mb = ran.seconds, ran.peak_pss / 2**20
     if ran.code != 0:
         result.error = f"run exit {ran.code}: {ran.tail[-300:]}"
@@ -361,6 +361,8 @@ def main() -> None:
     parser.add_argument("--baseline", default=None, metavar="EXE",
                         help="also the arm 'baseline': rows fidelity on, with this tunelab executable (an earlier "
                              "build, to measure a change side by side in one run)")
+    parser.add_argument("--run-args", default="", help="more options for every arm's `tunelab run`, "
+                                                       "e.g. '--no-portfolio' to compare with a build that had none")
     args = parser.parse_args()
     started = datetime.now(timezone.utc)
     tables, seeds = args.tables.split(","), [int(s) for s in args.seeds.split(",")]
@@ -381,7 +383,8 @@ def main() -> None:
             for arm, jobs in plan:
                 print(f"  {table} seed {seed}: {arm} --jobs {jobs} …", flush=True)
                 result = tunelab_arm(table, split, seed, arm, jobs, args.budget, args.workdir,
-                                     exe=args.baseline if arm == "baseline" else None)
+                                     exe=args.baseline if arm == "baseline" else None,
+                                     run_args=tuple(args.run_args.split()))
                 results.append(result)
                 print(f"    full fold {result.full_fold}, complete {result.complete}, CV {_fmt(result.best_cv)}, "
                       f"test {_fmt(result.test_roc_auc)}, run {_fmt(result.run_seconds, 0)} s, "
