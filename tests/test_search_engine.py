@@ -131,3 +131,23 @@ def test_a_cpu_budget_stops_the_search_when_cpu_seconds_run_out(store_path):
     with Store.open(str(store_path)) as st:
         _, cpu = st.spent(st.get_study("cpu").id)
     assert 1.0 <= cpu < 3.0  # the engine's own CPU (sampler, store) is counted too
+
+
+def test_a_store_that_stops_answering_while_progress_is_shown_is_waited_for_like_any_other(store_path):
+    # Progress reads the best value from the store; a connection lost at that moment used to end
+    # the launch at once instead of waiting for the store (seen once in the PostgreSQL fault test).
+    from sqlalchemy.exc import OperationalError
+
+    clock, failures = FakeClock(), [1]
+
+    def objective(config, report):
+        clock.advance(1)
+        return TrialResult(abs(config["x"]))
+
+    def progress(_):
+        if failures and failures.pop():
+            raise OperationalError("SELECT", {}, Exception("server closed the connection unexpectedly"))
+
+    result = run_objective_study("progress", objective, SPACE, Budget(trials=5), store=str(store_path),
+                                 direction="minimize", clock=clock, settings=settings(), on_progress=progress)
+    assert result.summary.reconnected == 1 and result.summary.counts["complete"] >= 4

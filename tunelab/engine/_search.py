@@ -143,11 +143,11 @@ def search(store: Store, record: StudyRecord, study: SearchStudy, space: SpaceSp
                 if launch.should_stop(budget):
                     break
                 kind = launch.run_one_trial()
+                if on_progress is not None:  # reads the best value from the store: inside the wait, too
+                    on_progress(launch.progress(kind))
             except Exception as exc:  # the store may have stopped answering for a while
                 launch.wait_for_store(exc)
                 continue
-            if on_progress is not None:
-                on_progress(launch.progress(kind))
             if kind in (keys.INTERRUPTED, LOST):
                 break
         if summary.lost:
