@@ -151,3 +151,24 @@ def test_a_store_that_stops_answering_while_progress_is_shown_is_waited_for_like
     result = run_objective_study("progress", objective, SPACE, Budget(trials=5), store=str(store_path),
                                  direction="minimize", clock=clock, settings=settings(), on_progress=progress)
     assert result.summary.reconnected == 1 and result.summary.counts["complete"] >= 4
+
+
+def test_a_trial_found_ended_by_another_workers_recovery_while_it_ran_ends_the_launch_as_lost(store_path):
+    # After SIGSTOP past the stale limit, a worker's report could meet its trial already marked
+    # interrupted by another worker; it printed optuna's traceback and its launch ended "crashed"
+    # (2 of 20 frozen-worker runs of benchmarks/fault_loop.py). Its claim is gone: the launch is lost.
+    from optuna.exceptions import UpdateFinishedTrialError
+
+    class _ClaimGone:
+        def run(self, config, should_prune, limits, clock):
+            raise UpdateFinishedTrialError("Trial#0 has already finished and can not be updated.")
+
+        def close(self):
+            pass
+
+    result = run_objective_study("claim", lambda config, report: TrialResult(0.0), SPACE, Budget(trials=3),
+                                 store=str(store_path), clock=FakeClock(), settings=settings(),
+                                 runner_factory=lambda objective: _ClaimGone())
+    assert result.summary.lost and result.summary.stop_reason.startswith("lost:")
+    with Store.open(str(store_path)) as st:
+        assert [launch.state for launch in st.launches(st.get_study("claim").id)] == ["lost"]

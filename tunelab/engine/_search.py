@@ -239,7 +239,11 @@ class _Launch:
         t0 = self.clock.now()
         cpu_left = None if self.box.cpu is None else max(0.0, self.box.cpu - self.heartbeat.cpu_seconds())
         hook = _PruningHook(self.trial)
-        outcome = self.runner.run(config, hook, Limits(self.box.deadline, cpu_left), self.clock)
+        try:
+            outcome = self.runner.run(config, hook, Limits(self.box.deadline, cpu_left), self.clock)
+        except UpdateFinishedTrialError:  # a report found the trial ended by another worker's recovery:
+            self._lost()  # this launch was declared dead while it ran (seen after SIGSTOP, fault_loop.py)
+            return LOST
         with hold_stops():  # the outcome is recorded whole, then a stop acts
             if not self.heartbeat.beat():  # declared dead while the trial ran: its result is not ours to record
                 self._lost()
