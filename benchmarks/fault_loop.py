@@ -132,7 +132,15 @@ def frozen_worker(rng: random.Random) -> dict[str, Any]:
                                stderr=subprocess.PIPE, text=True)
         time.sleep(rng.uniform(12, 25))
         kids = worker_processes(run.pid, store)
-        frozen = [kids[0], *kids[0].children(recursive=True)] if kids else []
+        patience = time.monotonic() + 20  # on a loaded machine the worker's launch row can come late
+        while not kids and time.monotonic() < patience and run.poll() is None:
+            time.sleep(0.5)
+            kids = worker_processes(run.pid, store)
+        if not kids:  # nothing was frozen: a miss of this harness, not a result about tunelab
+            run.communicate(timeout=300)
+            return {"survived": False, "lost": 0, "duplicated": 0, "ledger_error": None, "outside": 0.0,
+                    "raw_ledger_error": 0.0, "why": "harness: no worker process found to freeze"}
+        frozen = [kids[0], *kids[0].children(recursive=True)]
         for proc in frozen:
             proc.send_signal(signal.SIGSTOP)
         before = read_store(store)
