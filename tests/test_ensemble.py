@@ -144,3 +144,20 @@ def test_a_damaged_prediction_array_is_refused_in_one_line(searched, tmp_path, c
     assert result.code == 2
     lines = [ln for ln in result.err.strip().splitlines() if ln]
     assert len(lines) == 1 and "are damaged" in lines[0] and "Traceback" not in result.err
+
+
+@pytest.mark.parametrize(("gain", "advice"), [(0.002, "ship it with --ensemble"),
+                                              (0.0001, "within fold noise, not worth it"),
+                                              (-0.001, "not worth it")])
+def test_exports_ensemble_advice_uses_the_same_fold_noise_bar_as_the_default(gain, advice, capsys):
+    # The demo once printed "would have added +0.0001444 (fold noise 0.00015): ship it with --ensemble".
+    from types import SimpleNamespace
+
+    from tunelab._render import print_export
+
+    result = SimpleNamespace(predict_ms_per_1000=15.0, refit_seconds=0.1, members=[], chosen_by="best",
+                             path="m.zip", trial=3, family="linear", metric="roc_auc", score=0.73,
+                             rows_words="all 3,000 rows", sha256="0" * 64,
+                             plan={"gain": gain, "noise": 0.00015})
+    print_export(result)
+    assert capsys.readouterr().out.strip().splitlines()[-1].endswith(f": {advice}")

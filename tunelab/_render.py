@@ -270,9 +270,11 @@ def print_export(result: Any) -> None:
               f"{result.metric} {result.score:.4f}, refitted on {result.rows_words}{speed}; "
               f"sha256 {result.sha256[:16]}…")
     if result.plan is not None:
-        gain = result.plan["gain"]
-        out.print(f"an ensemble would have added {gain:+.4g} (fold noise {result.plan['noise']:.2g}): "
-                  + ("ship it with --ensemble" if gain > 0 else "not worth it"))
+        gain, noise = result.plan["gain"], result.plan["noise"]
+        # the same bar as export's default: an ensemble ships when it beats the best trial by more than its noise
+        verdict = ("ship it with --ensemble" if gain > noise else
+                   "within fold noise, not worth it" if gain > 0 else "not worth it")
+        out.print(f"an ensemble would have added {gain:+.4g} (fold noise {noise:.2g}): {verdict}")
 
 
 def print_first_look(study: str, decisions: Any) -> None:
