@@ -158,6 +158,6 @@ def test_exports_ensemble_advice_uses_the_same_fold_noise_bar_as_the_default(gai
     result = SimpleNamespace(predict_ms_per_1000=15.0, refit_seconds=0.1, members=[], chosen_by="best",
                              path="m.zip", trial=3, family="linear", metric="roc_auc", score=0.73,
                              rows_words="all 3,000 rows", sha256="0" * 64,
-                             plan={"gain": gain, "noise": 0.00015})
+                             plan={"gain": gain, "noise": 0.00015, "worth_it": gain > 0.00015})
     print_export(result)
     assert capsys.readouterr().out.strip().splitlines()[-1].endswith(f": {advice}")

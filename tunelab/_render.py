@@ -271,8 +271,7 @@ def print_export(result: Any) -> None:
               f"sha256 {result.sha256[:16]}…")
     if result.plan is not None:
         gain, noise = result.plan["gain"], result.plan["noise"]
-        # the same bar as export's default: an ensemble ships when it beats the best trial by more than its noise
-        verdict = ("ship it with --ensemble" if gain > noise else
+        verdict = ("ship it with --ensemble" if result.plan["worth_it"] else  # export's own default rule
                    "within fold noise, not worth it" if gain > 0 else "not worth it")
         out.print(f"an ensemble would have added {gain:+.4g} (fold noise {noise:.2g}): {verdict}")
 
