@@ -55,16 +55,20 @@ def optuna_importers() -> list[tuple[str, int]]:
                    if name == "optuna" or name.startswith("optuna.")})
 
 
+def _private_module(name: str, modules: dict[str, Path]) -> bool:
+    """Whether ``name`` is a package's private module, ``tunelab.X._y``."""
+    parts = name.split(".")
+    return (parts[0] == "tunelab" and len(parts) >= 3 and name in modules and parts[2].startswith("_")
+            and not parts[2].startswith("__"))
+
+
 def private_crossings() -> list[tuple[str, str, int]]:
     """Imports of another package's private module: ``tunelab.X._y`` from outside ``tunelab.X``."""
     modules = _modules()
     out = []
     for module, path in modules.items():
         for name, line in _imports(module, path):
-            parts = name.split(".")
-            if parts[0] != "tunelab" or len(parts) < 3 or name not in modules:
-                continue
-            if parts[2].startswith("_") and not parts[2].startswith("__") and package_of(module) != parts[1]:
+            if _private_module(name, modules) and package_of(module) != name.split(".")[1]:
                 out.append((module, name, line))
     return sorted(set(out))
 
@@ -76,9 +80,7 @@ def private_imports_from(folder: Path) -> list[tuple[str, str, int]]:
     out = []
     for path in sorted(folder.rglob("*.py")):
         for name, line in _imports(path.stem, path):
-            parts = name.split(".")
-            if parts[0] == "tunelab" and len(parts) >= 3 and name in modules and parts[2].startswith("_") \
-                    and not parts[2].startswith("__"):
+            if _private_module(name, modules):
                 out.append((str(path.relative_to(folder.parent)), name, line))
     return sorted(set(out))
 
