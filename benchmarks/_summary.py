@@ -27,6 +27,12 @@ import pandas as pd
 from scipy import stats
 
 
+def standard_error(values: object) -> float:
+    """The seed spread of a mean: ``std(ddof=1) / sqrt(n)``, ``NaN`` below two values (no spread to judge by)."""
+    array = np.asarray(values, dtype=float)
+    return float(array.std(ddof=1) / np.sqrt(len(array))) if len(array) > 1 else float("nan")
+
+
 def complete_rows(oriented: pd.DataFrame) -> pd.DataFrame:
     """Datasets on which every method produced a score."""
     return oriented.dropna(axis=0, how="any")
@@ -152,7 +158,7 @@ def gaps_to_best_default(per_seed: pd.DataFrame, method: str, defaults: list[str
             continue
         diff = (block[method] - block[best]).to_numpy(dtype=float)
         gap = float(diff.mean())
-        spread = float(diff.std(ddof=1) / np.sqrt(len(diff))) if len(diff) > 1 else float("nan")
+        spread = standard_error(diff)
         # isclose: with two seeds and one tie, |gap| equals the spread up to rounding.
         beyond = np.isnan(spread) or (-gap > spread and not np.isclose(-gap, spread, rtol=1e-9, atol=0.0))
         rows.append({**row, "gap": gap, "spread": spread, "below": bool(gap < 0 and beyond), "failed": False})

@@ -65,6 +65,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from benchmarks import big_data  # noqa: E402
 from benchmarks._results import write_results  # noqa: E402
 from benchmarks._scoring import Predictions, score_predictions  # noqa: E402
+from benchmarks._summary import standard_error  # noqa: E402
 from benchmarks._tunelab_cli import default_executable, read_predictions  # noqa: E402
 
 TARGET = "target"
@@ -342,7 +343,7 @@ def paired_difference(results: list[ArmResult], arm: str, other: str) -> str:
                  if t == table and a == arm and (table, other, seed) in by]
         if not diffs:
             continue
-        se = float(np.std(diffs, ddof=1) / np.sqrt(len(diffs))) if len(diffs) > 1 else float("nan")
+        se = standard_error(diffs)
         lines.append(f"{table}: {arm} minus {other}, test ROC AUC per seed "
                      f"{', '.join(f'{d:+.4f}' for d in diffs)}; mean {np.mean(diffs):+.4f}, standard error {se:.4f}")
     return "\n".join(lines)

@@ -45,6 +45,7 @@ import numpy as np
 from benchmarks import datasets
 from benchmarks._results import write_results
 from benchmarks._scoring import PRIMARY_METRIC, orient, score_prediction_file
+from benchmarks._summary import standard_error
 from benchmarks._tunelab_cli import default_executable
 
 DEFAULT_DATASETS = "breast_cancer,titanic,credit,digits,chile,hpc,wage,diamonds"
@@ -157,7 +158,7 @@ def report(rows: list[dict[str, Any]], references: dict[str, str]) -> None:
         mine = [r for r in rows if r["dataset"] == name]
         diffs = np.array([orient(r["metric"], r["test"]["frozen"]) - orient(r["metric"], r["test"]["unfrozen"])
                           for r in mine])
-        se = float(diffs.std(ddof=1) / math.sqrt(len(diffs))) if len(diffs) > 1 else float("nan")
+        se = standard_error(diffs)
         mean = float(diffs.mean())
         ok = mean >= -se if math.isfinite(se) else mean >= 0
         families = sorted({f for r in mine for f in r["dropped"]})

@@ -52,7 +52,7 @@ if str(ROOT) not in sys.path:
 from benchmarks import build_portfolio as bp, datasets  # noqa: E402
 from benchmarks._results import write_results  # noqa: E402
 from benchmarks._scoring import PRIMARY_METRIC, orient, score_predictions  # noqa: E402
-from benchmarks._summary import gaps_to_best_default, head_to_head, per_seed_table, pool_seeds  # noqa: E402
+from benchmarks._summary import gaps_to_best_default, head_to_head, per_seed_table, pool_seeds, standard_error  # noqa: E402
 from benchmarks._tunelab_cli import CommandFailed, _run, default_executable, read_predictions  # noqa: E402
 
 ARMS = ("warm", "cold")
@@ -178,7 +178,7 @@ def summarise(rows: list[dict[str, Any]], budget: str) -> dict[str, Any] | None:
     gaps = gaps_to_best_default(per_seed, "warm", ["cold"])
     gains = _gains(rows, budget)
     by_seed = gains.groupby("seed")["gain"].mean() if not gains.empty else pd.Series(dtype=float)
-    spread = float(by_seed.std(ddof=1) / np.sqrt(len(by_seed))) if len(by_seed) > 1 else float("nan")
+    spread = standard_error(by_seed)
     mean_gain = float(by_seed.mean()) if len(by_seed) else float("nan")
     tables = wins + ties + losses
     summary = {"budget": budget, "tables": tables, "wins": wins, "ties": ties, "losses": losses,

@@ -46,6 +46,7 @@ if str(ROOT) not in sys.path:
 from benchmarks import datasets  # noqa: E402
 from benchmarks._results import write_results  # noqa: E402
 from benchmarks._scoring import PRIMARY_METRIC, orient, score_prediction_file  # noqa: E402
+from benchmarks._summary import standard_error  # noqa: E402
 
 DEFAULT_DATASETS = ("breast_cancer", "titanic", "credit", "default", "digits", "chile", "hpc", "wage", "ames",
                     "diamonds")
@@ -230,7 +231,7 @@ def paired_gains(rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
         nonzero = g[g != 0]
         p = float(stats.wilcoxon(nonzero).pvalue) if len(nonzero) >= 2 else None
         paired.append({"dataset": name, "seeds": n, "mean_gain": float(g.mean()) if n else None,
-                       "standard_error": float(g.std(ddof=1) / np.sqrt(n)) if n >= 2 else None,
+                       "standard_error": standard_error(g) if n >= 2 else None,
                        "won": int((g > 0).sum()), "lost": int((g < 0).sum()), "tied": int((g == 0).sum()),
                        "p_value": p})
     return paired

@@ -414,6 +414,17 @@ def test_a_gap_to_the_best_default_counts_only_beyond_the_standard_error_of_the_
     assert gaps.loc["lost", "failed"]
 
 
+
+def test_the_seed_spread_is_the_standard_error_of_the_mean_and_undefined_for_one_seed() -> None:
+    from scipy import stats
+
+    from benchmarks._summary import standard_error
+
+    values = [0.81, 0.84, 0.79, 0.86]
+    assert standard_error(values) == pytest.approx(stats.sem(values))  # scipy's sem, ddof=1 (reference library)
+    assert math.isnan(standard_error([0.8]))
+    assert math.isnan(standard_error([]))
+
 # ------------------------------------------------------------------- the halves
 
 
