@@ -225,7 +225,7 @@ class Store:
             yield
         except StoreError as exc:
             if exc.disk_full and study:
-                raise StoreError(exc.message, f"free space, then tunelab resume {study}", disk_full=True) from exc
+                raise StoreError(exc.message, _disk_full_hint(study), disk_full=True) from exc
             raise
         except Exception as exc:
             failure = self.translate(exc, doing, study)
@@ -594,13 +594,22 @@ def _first_line(exc: BaseException) -> str:
     return text[0] if text else type(exc).__name__
 
 
+def _again(study: str | None) -> str:
+    """How to go on after a store fault: the study is intact, so resume it (or repeat a command outside one)."""
+    return f"tunelab resume {study}" if study else "run the command again"
+
+
+def _disk_full_hint(study: str | None) -> str:
+    return f"free space, then {_again(study)}"
+
+
 def _store_error(location: Location, doing: str, exc: DBAPIError, study: str | None = None) -> StoreError:
     text = _first_line(exc.orig if exc.orig is not None else exc)
     where = location.display()
     lowered = text.lower()
-    again = f"tunelab resume {study}" if study else "run the command again"
+    again = _again(study)
     if "disk is full" in lowered or "no space left" in lowered or "disk full" in lowered:
-        return StoreError(f"disk full at {where}", f"free space, then {again}", disk_full=True)
+        return StoreError(f"disk full at {where}", _disk_full_hint(study), disk_full=True)
     if "not a database" in lowered or "malformed" in lowered:
         return StoreError(f"{where} is corrupt or not a SQLite database",
                           "pass another --store; keep the file for inspection")
