@@ -5,6 +5,7 @@ Run from the repository root (about 12-18 minutes with the defaults)::
     python benchmarks/pruning.py                                  # six datasets, 60 s each
     python benchmarks/pruning.py --budget 30s --datasets credit,wage --on halving
     python benchmarks/pruning.py --combine results/pruning-60s-seed0-*.json results/pruning-60s-seed1-*.json
+    python benchmarks/pruning.py --metric accuracy --datasets beps,chile,digits,hpc,wvs   # a coarse metric
 
 For each dataset, ``tunelab profile --write-space`` builds the search space once, for the
 budget; then ``tunelab run --space`` is launched twice on the same training file with that
@@ -42,10 +43,11 @@ from typing import Any
 if __package__ in (None, ""):  # run as a script: make `benchmarks` importable
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+import optuna
 import pandas as pd
 
 from benchmarks import datasets
-from benchmarks._scoring import PRIMARY_METRIC, orient, score_predictions
+from benchmarks._scoring import HIGHER_IS_BETTER, PRIMARY_METRIC, orient, score_predictions
 from benchmarks._tunelab_cli import CommandFailed, _run, default_executable, read_predictions
 
 DEFAULT_DATASETS = ["credit", "default", "wvs", "hpc", "wage", "diamonds"]
@@ -54,24 +56,64 @@ VERDICTS = ("complete", "pruned", "failed")
 TIE = 1e-6
 
 
-def space_file(name: str, budget: str, seed: int, threads: int, workdir: Path, executable: str) -> Path:
+def space_file(name: str, budget: str, seed: int, threads: int, workdir: Path, executable: str,
+               metric: str | None = None) -> Path:
     """The dataset's built search space for the budget, written once and shared by both settings."""
     spec = datasets.get(name)
     train_csv, _ = datasets.write_split(name, workdir / "data", seed=seed)
     out = workdir / "space.json"
     if not out.exists():
         _run([executable, "profile", str(train_csv), "--target", spec.target, "--budget", budget,
-              "--write-space", str(out)], 900.0, [], threads)
+              "--write-space", str(out), *(["--metric", metric] if metric else [])], 900.0, [], threads)
     return out
 
 
+def replay_halving(trials: list[Any], maximise: bool) -> dict[str, Any]:
+    """The halving rule replayed over an unpruned study's trials (``tunelab.store.TrialRecord``), in order.
+
+    Each finished trial is judged at each step it reported, against the trials before it as the
+    replay left them (pruned at the step it stopped, or finished), by the pruner a pruned search
+    uses.  Returns the trials replayed, those stopped, the stopped ones whose finished score beats
+    the best of those let through, and whether the study's own best was stopped.
+    """
+    from tunelab.engine import make_pruner
+
+    done = sorted((t for t in trials if t.state == "complete" and t.value is not None), key=lambda t: t.number)
+    if not done:
+        return {"replayed": 0, "stopped": 0, "stopped_better": 0, "best_stopped": False}
+    pruner = make_pruner("halving")
+    study = optuna.create_study(direction="maximize" if maximise else "minimize")
+    family = {"family": optuna.distributions.CategoricalDistribution(
+        sorted({str(t.params.get("family")) for t in done}))}
+    stopped, through = [], []
+    for t in done:
+        params = {"family": str(t.params.get("family"))}
+        steps = sorted(t.intermediate)
+        at = next((step for step in steps if pruner.prune(study, optuna.trial.create_trial(
+            params=params, distributions=family, state=optuna.trial.TrialState.RUNNING,
+            intermediate_values={s: t.intermediate[s] for s in steps if s <= step}))), None)
+        seen = {s: t.intermediate[s] for s in steps if at is None or s <= at}
+        study.add_trial(optuna.trial.create_trial(
+            params=params, distributions=family, intermediate_values=seen,
+            state=optuna.trial.TrialState.COMPLETE if at is None else optuna.trial.TrialState.PRUNED,
+            value=t.value if at is None else None))
+        (through if at is None else stopped).append(t)
+    sign = 1.0 if maximise else -1.0
+    best_through = max((sign * t.value for t in through), default=-math.inf)
+    best = max(done, key=lambda t: sign * t.value)
+    return {"replayed": len(done), "stopped": len(stopped),
+            "stopped_better": sum(1 for t in stopped if sign * t.value > best_through),
+            "best_stopped": any(t.number == best.number for t in stopped)}
+
+
 def run_once(name: str, pruning: str, budget: str, seed: int, threads: int, workdir: Path,
-             executable: str) -> dict[str, Any]:
+             executable: str, metric: str | None = None) -> dict[str, Any]:
     """One study on one dataset: search, export, predict, score; with the trial counts."""
     from tunelab.ops import list_studies
+    from tunelab.store import Store
 
     spec = datasets.get(name)
-    space = space_file(name, budget, seed, threads, workdir, executable)
+    space = space_file(name, budget, seed, threads, workdir, executable, metric)
     train_csv, test_csv = datasets.write_split(name, workdir / "data", seed=seed)
     test = pd.read_csv(test_csv)
     features = workdir / "data" / "test_features.csv"
@@ -82,18 +124,24 @@ def run_once(name: str, pruning: str, budget: str, seed: int, threads: int, work
     grace = 900.0
     search_seconds = _run([executable, "run", str(train_csv), "--target", spec.target, "--budget", budget,
                            "--store", str(store), "--study", name, "--seed", str(seed),
-                           "--pruning", pruning, "--space", str(space), "-q"], grace, log, threads)
+                           "--pruning", pruning, "--space", str(space), "-q",
+                           *(["--metric", metric] if metric else [])], grace, log, threads)
     _run([executable, "export", name, "--store", str(store), "--out", str(model)], grace, log, threads)
     _run([executable, "predict", str(model), str(features), "--out", str(preds)], grace, log, threads)
     scores = score_predictions(spec.task, test[spec.target], read_predictions(preds, spec.task))
     [line] = [s for s in list_studies(str(store)) if s.name == name]
     evaluated = sum(line.counts.get(k, 0) for k in VERDICTS)
-    metric = PRIMARY_METRIC[spec.task]
+    metric = metric or PRIMARY_METRIC[spec.task]
+    replay = None
+    if pruning == "off":
+        with Store.open(str(store)) as opened:
+            replay = replay_halving(opened.trials(name), HIGHER_IS_BETTER[metric])
     return {
         "dataset": name, "task": spec.task, "pruning": pruning, "metric": metric,
         "score": scores[metric], "scores": scores, "counts": line.counts,
         "evaluated": evaluated, "ledger_seconds": line.wall_spent, "search_seconds": search_seconds,
         "per_minute": 60.0 * evaluated / max(line.wall_spent, 1e-9), "cv_best": line.best,
+        "pruned_share": line.counts.get("pruned", 0) / max(evaluated, 1), "replay": replay,
     }
 
 
@@ -111,12 +159,23 @@ def side_by_side(records: list[dict[str, Any]], on: str) -> pd.DataFrame:
             "configs/min off": off["per_minute"], "configs/min on": pruned["per_minute"],
             "ratio": pruned["per_minute"] / max(off["per_minute"], 1e-9),
             "pruned on": pruned["counts"].get("pruned", 0),
+            "pruned share": pruned["counts"].get("pruned", 0) / max(pruned["evaluated"], 1),
             "cv off": off["cv_best"], "cv on": pruned["cv_best"],
             "cv on >= off": _equal_or_better(metric, pruned["cv_best"], off["cv_best"]),
             "test off": off["score"], "test on": pruned["score"],
             "test on >= off": _equal_or_better(metric, pruned["score"], off["score"]),
+            **_replay_columns(off.get("replay")),
         })
     return pd.DataFrame(rows).set_index("dataset")
+
+
+def _replay_columns(replay: dict[str, Any] | None) -> dict[str, Any]:
+    """The replay's counts as table columns (absent from runs made before the replay existed)."""
+    if not replay:
+        return {}
+    return {"replay stopped": f"{replay['stopped']}/{replay['replayed']}",
+            "stopped beat kept": replay["stopped_better"], "best stopped": int(replay["best_stopped"]),
+            "studies": replay.get("studies", 1)}
 
 
 def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
@@ -140,7 +199,12 @@ def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
         for r in group:
             for key, value in r["counts"].items():
                 counts[key] = counts.get(key, 0) + value
+        replays = [r["replay"] for r in group if r.get("replay")]
+        replay = {key: sum(x[key] for x in replays)
+                  for key in ("replayed", "stopped", "stopped_better", "best_stopped")}
+        replay["studies"] = len(replays)
         pooled.append({**group[0], "counts": counts, "seeds": sorted(r.get("seed", 0) for r in group),
+                       "replay": replay if replays else None,
                        **{key: sum(r[key] for r in group) / len(group)
                           for key in ("per_minute", "score", "cv_best", "evaluated")}})
     return pooled
@@ -158,17 +222,23 @@ def render(table: pd.DataFrame) -> str:
     for column in ("configs/min off", "configs/min on"):
         shown[column] = shown[column].map(lambda v: f"{v:.1f}")
     shown["ratio"] = shown["ratio"].map(lambda v: f"{v:.2f}x")
+    shown["pruned share"] = shown["pruned share"].map(lambda v: f"{v:.0%}")
     for column in ("cv off", "cv on", "test off", "test on"):
         shown[column] = shown[column].map(lambda v: f"{v:.5g}")
     n = len(table)
+    replay = []
+    if "replay stopped" in table.columns:
+        replay = [f"unpruned best stopped by the replayed rule:  {int(table['best stopped'].sum())} of "
+                  f"{int(table['studies'].sum())} unpruned studies"]
     return "\n".join([
         "Configurations evaluated per minute, best cross-validated score of the study (cv), and test score",
-        "(roc_auc: higher is better; log_loss, rmse: lower)",
+        "(roc_auc, accuracy: higher is better; log_loss, rmse, mae: lower)",
         shown.to_string(),
         "",
         f"at least 2x the configurations per minute:    {int((table['ratio'] >= 2).sum())} of {n}",
         f"equal or better best cv score with pruning:   {int(table['cv on >= off'].sum())} of {n}",
         f"equal or better test score with pruning:      {int(table['test on >= off'].sum())} of {n}",
+        *replay,
     ])
 
 
@@ -177,6 +247,8 @@ def _parse_args(argv: list[str] | None) -> argparse.Namespace:
     parser.add_argument("--budget", default="60s", help="budget of each study: 30s, 60s, 5m")
     parser.add_argument("--datasets", default=",".join(DEFAULT_DATASETS),
                         help=f"comma-separated, from: {', '.join(datasets.names())}")
+    parser.add_argument("--metric", default=None,
+                        help="search and score under this metric (tunelab run --metric); default: the task's own")
     parser.add_argument("--on", default="auto", help="the pruning rule compared with off (auto, median, ...)")
     parser.add_argument("--seed", type=int, default=0, help="seed of the split, the folds and the sampler")
     parser.add_argument("--threads", type=int, default=1, help="BLAS/OpenMP thread cap for tunelab")
@@ -220,7 +292,7 @@ def main(argv: list[str] | None = None) -> int:
             for pruning in ("off", args.on):
                 try:
                     record = run_once(name, pruning, args.budget, args.seed, args.threads,
-                                      Path(scratch) / name, executable)
+                                      Path(scratch) / name, executable, args.metric)
                 except CommandFailed as exc:
                     print(f"{name} / pruning {pruning}: {exc}", file=sys.stderr)
                     continue
@@ -229,7 +301,8 @@ def main(argv: list[str] | None = None) -> int:
                       f"({record['counts'].get('pruned', 0)} pruned) in {record['ledger_seconds']:.0f} s, "
                       f"test {record['metric']} {record['score']:.4f}", flush=True)
     args.results_dir.mkdir(parents=True, exist_ok=True)
-    out = args.results_dir / f"pruning-{args.budget}-seed{args.seed}-{started.strftime('%Y%m%dT%H%M%SZ')}.json"
+    tag = f"-{args.metric}" if args.metric else ""
+    out = args.results_dir / f"pruning{tag}-{args.budget}-seed{args.seed}-{started.strftime('%Y%m%dT%H%M%SZ')}.json"
     out.write_text(json.dumps({"budget": args.budget, "seed": args.seed, "on": args.on,
                                "started": started.isoformat(), "records": records}, indent=1, default=str))
     print()
