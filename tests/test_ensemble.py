@@ -99,6 +99,30 @@ def test_a_plan_judges_the_ensemble_cross_fitted_against_the_best_single_trial()
     assert found.gain > 0 and found.worth_it and found.score < found.single  # rmse: lower is better
 
 
+def test_kept_probabilities_a_rounding_step_past_one_are_scored_not_refused():
+    # float32 storage and blending put a probability at 1.0000000186 in a real run, and
+    # scikit-learn's log_loss raises for any value above 1 (its own check; reference library).
+    rng = np.random.default_rng(2)
+    y_folds = [rng.integers(0, 2, size=200) for _ in range(4)]
+    past_one = np.float32(1.0000001)
+    predictions = {n: [np.where(y == 1, past_one, np.float32(0.3 + 0.1 * n)).astype(np.float32) for y in y_folds]
+                   for n in range(3)}
+    found = plan_ensemble(predictions, {0: 0.5, 1: 0.5, 2: 0.5}, y_folds, [0, 1], METRICS["log_loss"])
+    assert found is not None and np.isfinite(found.score) and found.score >= 0
+
+
+def test_an_exported_ensembles_probabilities_never_pass_one_when_its_weights_round_past_one():
+    from sklearn.dummy import DummyClassifier
+
+    from tunelab.models import WeightedEnsemble
+
+    X, y = np.zeros((3, 1)), np.array([0, 1, 1])
+    members = [DummyClassifier(strategy="constant", constant=1).fit(X, y) for _ in range(5)]
+    weights = [18, 18, 15, 1, 6]  # normalised, these sum to 1 + 2e-16 added in this order
+    proba = WeightedEnsemble.of_fitted(members, weights).predict_proba(X)
+    assert proba.max() <= 1.0 and proba[:, 1] == pytest.approx(1.0)
+
+
 def test_export_writes_one_estimator_that_round_trips_and_says_what_it_holds(searched, tmp_path, cli):
     store, data = searched
     model = tmp_path / "ensemble.zip"

@@ -85,6 +85,9 @@ def metric_input(prediction: np.ndarray, labels: Sequence[object], metric: Metri
     if not len(labels):
         return prediction
     proba = np.column_stack([1.0 - prediction, prediction]) if prediction.ndim == 1 else prediction
+    # Kept predictions are float32 and a blend of them can land a rounding step past 1 (seen:
+    # 1.0000000186), which scikit-learn's log_loss refuses; clipping moves no score by more than that step.
+    proba = np.clip(proba, 0.0, 1.0)
     if metric.needs_proba:
         return proba
     return np.asarray(labels, dtype=object)[np.argmax(proba, axis=1)]

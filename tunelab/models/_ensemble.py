@@ -57,7 +57,9 @@ class WeightedEnsemble(BaseEstimator):
             proba = member.predict_proba(X)
             columns = np.searchsorted(self.classes_, member.classes_)
             total[:, columns] += weight * proba
-        return total
+        # Weights that sum to one in exact arithmetic can sum to 1 + 2e-16 in floats, and
+        # scikit-learn's log_loss refuses any probability above 1: a rounding step is not a model's.
+        return np.clip(total, 0.0, 1.0)
 
     def predict(self, X: Any) -> np.ndarray:
         if hasattr(self, "classes_"):
