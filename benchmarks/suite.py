@@ -84,6 +84,8 @@ DEFAULT_METHODS = ["hgb_default", "rf_default", "linear_default"]
 SEARCHES = ("random_search", "tpe", "tunelab", "tunelab_ensemble")
 # What tunelab is compared with head to head.
 RIVALS = ("random_search", "tpe")
+# The two arms exported from one study: export's default (an ensemble where it is worth it) and one trial.
+ENSEMBLE, SINGLE = "tunelab_ensemble", "tunelab"
 RESULTS_DIR = Path(__file__).resolve().parent / "results"
 _BUDGET = re.compile(r"^(\d+(?:\.\d+)?)(s|m|h)$")
 _UNIT_SECONDS = {"s": 1, "m": 60, "h": 3600}
@@ -177,8 +179,10 @@ def metric_report(records: list[dict[str, Any]]) -> dict[str, Any]:
         higher is better), ``not_run`` (dataset × method, no run at all), ``seeds`` (per
         dataset, the seeds pooled), ``summary`` (per method: mean rank, wins over the best
         default, mean normalised score), ``friedman`` (p, datasets, methods), ``head_to_head``
-        (rival -> wins, ties, losses of tunelab, over the tables both ran) and ``below_default``
-        (per table tunelab ran: best default, gap, spread, seeds, below, failed).
+        (rival -> wins, ties, losses of tunelab, over the tables both ran), ``below_default``
+        (per table tunelab ran: best default, gap, spread, seeds, below, failed) and ``ensemble``
+        (``None`` unless both export arms ran: wins, ties, losses of the ensemble arm against the
+        single trial, and the tables where it is worse by more than the seed spread).
     """
     long = _long(records)
     per_seed = per_seed_table(long)
@@ -202,7 +206,19 @@ def metric_report(records: list[dict[str, Any]]) -> dict[str, Any]:
         "head_to_head": {rival: head_to_head(oriented[~(not_run["tunelab"] | not_run[rival])], "tunelab", rival)
                          for rival in RIVALS if compared and rival in oriented.columns},
         "below_default": below,
+        "ensemble": _ensemble_against_single(per_seed, oriented, not_run),
     }
+
+
+def _ensemble_against_single(per_seed: pd.DataFrame, oriented: pd.DataFrame,
+                             not_run: pd.DataFrame) -> dict[str, Any] | None:
+    """Export's default against one trial from the same study, per table: the pooled score and the seed spread."""
+    if ENSEMBLE not in oriented.columns or SINGLE not in oriented.columns:
+        return None
+    both = [d for d in oriented.index if not (not_run.loc[d, ENSEMBLE] or not_run.loc[d, SINGLE])]
+    wins, ties, losses = head_to_head(oriented.loc[both], ENSEMBLE, SINGLE)
+    gaps = gaps_to_best_default(per_seed.loc[both], ENSEMBLE, [SINGLE]) if both else pd.DataFrame(columns=["below"])
+    return {"wins": wins, "ties": ties, "losses": losses, "worse": [str(d) for d in gaps[gaps["below"]].index]}
 
 
 def _seed_text(seeds: list[int]) -> str:
@@ -239,6 +255,13 @@ def _render_metric(metric: str, records: list[dict[str, Any]]) -> tuple[list[str
     for rival, (wins, ties, losses) in report["head_to_head"].items():
         lines.append(f"tunelab against {rival}: better on {wins} of {_tables_text(wins + ties + losses)} "
                      f"(tied {ties}, worse or failed {losses})")
+    ensemble = report["ensemble"]
+    if ensemble is not None:
+        worse = ensemble["worse"]
+        lines.append(f"{ENSEMBLE} against {SINGLE} (one trial, same study): better on {ensemble['wins']} of "
+                     f"{_tables_text(ensemble['wins'] + ensemble['ties'] + ensemble['losses'])} (tied "
+                     f"{ensemble['ties']}, worse or failed {ensemble['losses']}); worse beyond the seed spread on "
+                     f"{len(worse)}" + (f": {', '.join(worse)}" if worse else ""))
     below = report["below_default"]
     if "tunelab" in oriented.columns:
         flagged = below[below["below"]]
@@ -262,6 +285,7 @@ def _render_half(half: str, records: list[dict[str, Any]]) -> list[str]:
         return lines + ["not run", ""]
     totals = {rival: [0, 0] for rival in RIVALS}
     below = []
+    ensemble = [0, 0, []]  # wins, pairs, pairs worse beyond the seed spread
     for metric in METRIC_ORDER:
         chosen = [r for r in records if r["metric"] == metric]
         if not chosen:
@@ -273,12 +297,42 @@ def _render_half(half: str, records: list[dict[str, Any]]) -> list[str]:
             totals[rival][1] += wins + ties + losses
         flagged = report["below_default"]
         below += [f"{d} ({metric})" for d in flagged[flagged["below"]].index]
+        if report["ensemble"] is not None:
+            found = report["ensemble"]
+            ensemble[0] += found["wins"]
+            ensemble[1] += found["wins"] + found["ties"] + found["losses"]
+            ensemble[2] += [f"{d} ({metric})" for d in found["worse"]]
     if any(total for _, total in totals.values()):
         pairs = ", ".join(f"{rival} on {wins} of {total}" for rival, (wins, total) in totals.items() if total)
         lines.append(f"{HALF_TITLES[half].split(' (')[0]}, all metrics (table x metric pairs): "
                      f"tunelab better than {pairs}; below the best default beyond the seed spread on "
                      f"{len(below)}" + (f": {', '.join(below)}" if below else ""))
+    if ensemble[1]:
+        worse = ensemble[2]
+        lines.append(f"{HALF_TITLES[half].split(' (')[0]}, all metrics: {ENSEMBLE} better than {SINGLE} on "
+                     f"{ensemble[0]} of {ensemble[1]} pairs; worse beyond the seed spread on {len(worse)}"
+                     + (f": {', '.join(worse)}" if worse else ""))
+        lines += _ensemble_costs([r for r in records if r["method"] in (ENSEMBLE, SINGLE)])
     return lines + [""]
+
+
+def _ensemble_costs(records: list[dict[str, Any]]) -> list[str]:
+    """What shipping export's default costs beside one trial: export and prediction time, kept predictions."""
+    mine = [r for r in records if r["method"] == ENSEMBLE and r.get("score") is not None]
+    single = [r for r in records if r["method"] == SINGLE and r.get("score") is not None]
+    if not mine:
+        return []
+    shipped = [r for r in mine if r["details"].get("members")]
+    per_1000 = [r["details"]["predict_ms_per_1000"] for r in shipped if r["details"].get("predict_ms_per_1000")]
+    store_mb = [r["details"]["store_bytes"] / 1e6 for r in mine if r["details"].get("store_bytes")]
+    return [f"    export shipped an ensemble on {len(shipped)} of {len(mine)} runs (else the best trial); "
+            f"export s mean {np.mean([r['refit_seconds'] for r in mine]):.1f} against "
+            f"{np.mean([r['refit_seconds'] for r in single]) if single else float('nan'):.1f} for one trial; "
+            f"predict s mean {np.mean([r['details']['predict_seconds'] for r in mine]):.1f}"
+            + (f"; ensemble predict ms per 1,000 rows mean {np.mean(per_1000):.0f}, max {max(per_1000):.0f}"
+               if per_1000 else "")
+            + (f"; store with kept predictions mean {np.mean(store_mb):.1f} MB, max {max(store_mb):.1f} MB"
+               if store_mb else "")]
 
 
 def _timing_table(records: list[dict[str, Any]]) -> pd.DataFrame:

@@ -598,6 +598,31 @@ def test_report_counts_tunelab_against_each_rival_per_metric_and_over_the_half()
             ) in report
 
 
+def test_report_judges_the_ensemble_arm_against_the_single_trial_from_the_same_study() -> None:
+    from benchmarks.suite import render
+
+    records = []
+    for seed in (0, 1):
+        for dataset, ensemble in (("concrete", 3.5), ("cps1988", 4.5), ("saratoga", 4.0)):
+            single = 4.0 + seed / 10
+            records += [_record(dataset, "hgb_default", 5.0, seed), _record(dataset, "tunelab", single, seed),
+                        {**_record(dataset, "tunelab_ensemble", ensemble + seed / 10 if dataset != "saratoga"
+                                   else single, seed), "refit_seconds": 6.0,
+                         "details": {"members": [{"trial": 1, "weight": 1.0}] if dataset == "concrete" else [],
+                                     "predict_seconds": 2.0, "predict_ms_per_1000": 40.0,
+                                     "store_bytes": 2_000_000}}]
+    for r in records:
+        r.setdefault("refit_seconds", 3.0)
+    report = render(records)
+    # rmse: concrete lower (better) by 0.5 on each seed, cps1988 higher (worse) by 0.5 on each seed
+    # (a spread of 0, so beyond it), saratoga the same trial shipped (tied).
+    assert ("tunelab_ensemble against tunelab (one trial, same study): better on 1 of 3 tables (tied 1, "
+            "worse or failed 1); worse beyond the seed spread on 1: cps1988") in report
+    assert ("Held-back half, all metrics: tunelab_ensemble better than tunelab on 1 of 3 pairs; "
+            "worse beyond the seed spread on 1: cps1988 (rmse)") in report
+    assert "export shipped an ensemble on 2 of 6 runs" in report and "export s mean 6.0 against 3.0" in report
+
+
 def test_a_method_never_run_on_a_table_shows_as_not_run_and_is_left_out_of_its_comparisons() -> None:
     from benchmarks.suite import render
 
