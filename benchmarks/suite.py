@@ -6,6 +6,8 @@ Run from the repository root::
     python benchmarks/suite.py --budget 60s --half dev --seeds 0     # the development half, one seed
     python benchmarks/suite.py --budget 30s --datasets titanic,wage --exclude tunelab
     python benchmarks/suite.py --combine benchmarks/results/suite-*.json   # re-print, runs nothing
+    python benchmarks/suite.py --combine FILES --summary OUT.json.gz       # a compact summary to commit
+    python benchmarks/suite.py --combine FILES --markdown held             # the half as one table
 
 Protocol. Every task is scored under the two metrics a user most often picks for it (binary:
 ROC AUC and log loss; multiclass: accuracy and log loss; regression: RMSE and MAE;
@@ -44,6 +46,7 @@ JSON, rewritten after every table so that a stopped run keeps what it finished. 
 from __future__ import annotations
 
 import argparse
+import gzip
 import json
 import platform
 import re
@@ -335,6 +338,50 @@ def _ensemble_costs(records: list[dict[str, Any]]) -> list[str]:
                if store_mb else "")]
 
 
+def headline(records: list[dict[str, Any]], half: str) -> str:
+    """One half's result as a Markdown table, a row per metric: what the README quotes, regenerated."""
+    chosen = [r for r in records if half_of(r["dataset"]) == half]
+    rows = ["| metric | tables | seeds | tunelab better than random search | than plain TPE | mean normalised "
+            "score: tunelab / random / TPE | below the best default beyond the seed spread | ensemble better "
+            "than single |", "|---|---:|---|---:|---:|---|---:|---:|"]
+    for metric in METRIC_ORDER:
+        mine = [r for r in chosen if r["metric"] == metric]
+        if not mine:
+            continue
+        report = metric_report(mine)
+        tables = len(report["pooled"])
+        seeds = sorted({s for seeds in report["seeds"] for s in seeds})
+        duel = {rival: f"{w} of {w + t + lost}" for rival, (w, t, lost) in report["head_to_head"].items()}
+        summary = report["summary"]["mean normalised score"]
+        normalised = " / ".join(f"{summary[m]:.3f}" if m in summary.index else "—"
+                                for m in ("tunelab", "random_search", "tpe"))
+        below = report["below_default"]
+        ensemble = report["ensemble"]
+        versus = "—" if ensemble is None else \
+            f"{ensemble['wins']} of {ensemble['wins'] + ensemble['ties'] + ensemble['losses']}"
+        rows.append(f"| {metric} | {tables} | {_seed_text(seeds)} | {duel.get('random_search', '—')} | "
+                    f"{duel.get('tpe', '—')} | "
+                    f"{normalised} | {int(below['below'].sum())} of {len(below)} | {versus} |")
+    return "\n".join(rows)
+
+
+def compact(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """The fields the report reads, without command logs and curves: small enough to commit."""
+    keep = ("dataset", "method", "seed", "task", "metric", "score", "search_seconds", "over_budget_seconds",
+            "refit_seconds", "n_trials")
+    out = []
+    for r in records:
+        row = {k: r.get(k) for k in keep}
+        details = r.get("details") or {}
+        if r["method"] == ENSEMBLE:
+            row["details"] = {"members": details.get("members", []), "predict_seconds": details.get("predict_seconds"),
+                              "predict_ms_per_1000": details.get("predict_ms_per_1000"),
+                              "store_bytes": details.get("store_bytes")}
+        row["error"] = (r.get("error") or "")[:200] or None
+        out.append(row)
+    return out
+
+
 def _timing_table(records: list[dict[str, Any]]) -> pd.DataFrame:
     frame = pd.DataFrame(records).reindex(
         columns=["method", "search_seconds", "over_budget_seconds"]
@@ -378,12 +425,17 @@ def _environment() -> dict[str, Any]:
     }
 
 
+def _read(path: Path) -> str:
+    raw = Path(path).read_bytes()
+    return (gzip.decompress(raw) if str(path).endswith(".gz") else raw).decode("utf-8")
+
+
 def read_results(paths: list[Path]) -> list[dict[str, Any]]:
     """The records of several raw result files, checked to pool: one budget, no run twice."""
     records: list[dict[str, Any]] = []
     budgets = set()
     for path in paths:
-        payload = json.loads(Path(path).read_text(encoding="utf-8"))
+        payload = json.loads(_read(path))
         budgets.add(payload["budget"])
         records += payload["results"]
     if len(budgets) > 1:
@@ -418,7 +470,11 @@ def _parse_args(argv: list[str] | None) -> argparse.Namespace:
                         help="where the raw JSON results go")
     parser.add_argument("--tunelab", default=None, help="path of the tunelab executable")
     parser.add_argument("--combine", nargs="+", type=Path, metavar="FILE",
-                        help="re-print the report of raw result files (pooled); runs nothing")
+                        help="re-print the report of raw result files (pooled; .json or .json.gz); runs nothing")
+    parser.add_argument("--markdown", choices=["dev", "held"], default=None,
+                        help="with --combine: print that half's one-table summary (Markdown) instead")
+    parser.add_argument("--summary", type=Path, default=None, metavar="OUT.json.gz",
+                        help="with --combine: also write the pooled records, compacted and gzipped, to commit")
     args = parser.parse_args(argv)
     try:
         args.budget_seconds = parse_budget(args.budget)
@@ -447,7 +503,12 @@ def main(argv: list[str] | None = None) -> int:
     """Run the suite (or re-print runs with ``--combine``); returns the process exit code."""
     args = _parse_args(argv)
     if args.combine:
-        print(render(read_results(args.combine)))
+        records = read_results(args.combine)
+        print(headline(records, args.markdown) if args.markdown else render(records))
+        if args.summary is not None:
+            budget = json.loads(_read(args.combine[0]))["budget"]
+            args.summary.write_bytes(gzip.compress(json.dumps({"budget": budget, "results": compact(records)},
+                                                              separators=(",", ":")).encode("utf-8"), mtime=0))
         return 0
     methods = all_methods(args.tunelab)
     chosen = _select(args.methods, list(methods), "method")
