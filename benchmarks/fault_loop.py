@@ -14,6 +14,8 @@ re-queued more than once; the *ledger error* is how far the study's recorded wal
 the span its launches were alive (the first launch's start to the last one's end), for the frozen
 worker whose frozen time must not count twice (target: within one 2 s heartbeat). Each run's line
 also gives the process start-up and exit outside any launch, which the ledger does not count.
+A *harness miss* is a run where the fault never happened (no worker found to freeze, or the frozen
+worker woke before anyone declared it dead); it is printed and left out of the counts.
 
     .venv/bin/python benchmarks/fault_loop.py --runs 20
     .venv/bin/python benchmarks/fault_loop.py --faults disk --runs 3    # a quick look
@@ -138,8 +140,8 @@ def frozen_worker(rng: random.Random) -> dict[str, Any]:
             kids = worker_processes(run.pid, store)
         if not kids:  # nothing was frozen: a miss of this harness, not a result about tunelab
             run.communicate(timeout=300)
-            return {"survived": False, "lost": 0, "duplicated": 0, "ledger_error": None, "outside": 0.0,
-                    "raw_ledger_error": 0.0, "why": "harness: no worker process found to freeze"}
+            return {"survived": False, "miss": True, "lost": 0, "duplicated": 0, "ledger_error": None,
+                    "outside": 0.0, "raw_ledger_error": 0.0, "why": "harness: no worker process found to freeze"}
         frozen = [kids[0], *kids[0].children(recursive=True)]
         for proc in frozen:
             proc.send_signal(signal.SIGSTOP)
@@ -155,9 +157,12 @@ def frozen_worker(rng: random.Random) -> dict[str, Any]:
         after = read_store(store)
         ledger, first_start, last_end = _ledger(str(store), "w")
         states = [state for _, state in after.launches]
-        ok = (run.returncode == 0 and after.integrity == "ok" and after.states.get("RUNNING", 0) == 0
-              and states[1:] == ["lost"])
-        return {"survived": ok, "lost": len(before.complete - after.complete),
+        clean = run.returncode == 0 and after.integrity == "ok" and after.states.get("RUNNING", 0) == 0
+        # A worker nobody declared dead (the other one checked no time inside the freeze) woke and
+        # finished: the fault under test never happened, which is this harness's miss, not a result.
+        missed = clean and states[1:] == ["finished"]
+        return {"survived": clean and states[1:] == ["lost"], "miss": missed,
+                "lost": len(before.complete - after.complete),
                 "duplicated": sum(n - 1 for n in after.retries.values() if n > 1),
                 # against the span from the first launch's start to the last one's end; the raw error
                 # also holds the start-up before the first launch row and the exit after the last
@@ -185,17 +190,20 @@ def main() -> int:
             result = RUNNERS[fault](rng)
             results.append(result)
             ledger = result.get("ledger_error")
-            print(f"  {fault} {i + 1}/{args.runs}: {'survived' if result['survived'] else 'FAILED'}, "
+            verdict = "harness miss" if result.get("miss") else "survived" if result["survived"] else "FAILED"
+            print(f"  {fault} {i + 1}/{args.runs}: {verdict}, "
                   f"lost {result['lost']}, duplicated {result['duplicated']}"
                   + (f", ledger error {ledger:.1f} s (against the process's whole life "
                      f"{result['raw_ledger_error']:.1f} s, of which start-up and exit outside any launch "
                      f"{result['outside']:.1f} s)" if ledger is not None else "") + f" ({result['why']})",
                   file=sys.stderr, flush=True)
+        misses = sum(1 for r in results if r.get("miss"))
+        results = [r for r in results if not r.get("miss")]  # a run where the fault never happened counts for nothing
         errors = [r["ledger_error"] for r in results if r.get("ledger_error") is not None]
         worst = f"{max(errors):.1f}" if errors else "-"
         print(f"{fault:12} {len(results):5d} {sum(r['survived'] for r in results):9d} "
-              f"{sum(r['lost'] for r in results):12d} {sum(r['duplicated'] for r in results):11d} {worst:>17}",
-              flush=True)
+              f"{sum(r['lost'] for r in results):12d} {sum(r['duplicated'] for r in results):11d} {worst:>17}"
+              + (f"   ({misses} harness misses left out)" if misses else ""), flush=True)
     return 0
 
 
