@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import sqlite3
+import sys
 from pathlib import Path
 
 import pandas as pd
@@ -214,6 +215,35 @@ def test_debug_shows_the_traceback(cli, small_csv, store_path):
                                         "--store", str(store_path)))
     with pytest.raises(InputError, match="nope"):
         cli("--debug", "run", str(small_csv), "--target", "nope", "--budget", "5s", "--store", str(store_path))
+
+
+def test_a_bug_is_one_line_naming_it_with_exit_1_and_debug_shows_the_traceback(cli, store_path, monkeypatch):
+    # Exit 1 tells a script "tunelab failed by itself", apart from exit 2, "fix your input".
+    import tunelab.ops
+
+    def broken(*args, **kwargs):
+        raise ValueError("y_prob contains values greater than 1: 1.0000000186\nsecond line")
+
+    monkeypatch.setattr(tunelab.ops, "list_studies", broken)
+    result = cli("status", "--store", str(store_path))
+    lines = [ln for ln in result.err.splitlines() if ln.strip()]
+    assert result.code == 1 and len(lines) == 1 and "Traceback" not in result.err
+    assert lines[0].startswith("tunelab: internal error: ValueError: y_prob contains values greater than 1")
+    assert "--debug" in lines[0] and "second line" not in lines[0]
+    with pytest.raises(ValueError, match="greater than 1"):
+        cli("--debug", "status", "--store", str(store_path))
+
+
+def test_a_reader_that_goes_away_ends_the_command_quietly(cli, store_path, monkeypatch):
+    import tunelab.ops
+
+    def closed_pipe(*args, **kwargs):
+        raise BrokenPipeError(32, "Broken pipe")
+
+    monkeypatch.setattr(tunelab.ops, "list_studies", closed_pipe)
+    monkeypatch.setattr(sys, "stdout", sys.stdout)  # the command points stdout at /dev/null; put it back after
+    result = cli("status", "--store", str(store_path))
+    assert result.code == 1 and result.err == ""
 
 
 @pytest.mark.parametrize("case", list(BAD_FILES))

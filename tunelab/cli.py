@@ -29,6 +29,7 @@ app = typer.Typer(
 )
 
 EXIT_BAD_INPUT = 2
+EXIT_BUG = 1  # something tunelab did not expect: a bug to report, not the user's input
 
 
 @dataclass
@@ -574,9 +575,21 @@ def main(argv: list[str] | None = None) -> None:
     except (KeyboardInterrupt, typer.Abort):
         sys.stderr.write("tunelab: stopped\n")
         sys.exit(130)
+    except BrokenPipeError:
+        # The reader went away (`tunelab status --json | head -1`): nothing to say, and nowhere to say it.
+        import os
+
+        sys.stdout = open(os.devnull, "w")  # where the interpreter flushes what is left, at exit
+        sys.exit(EXIT_BUG)
     except Exception as exc:
-        if flags.debug or not _is_usage_error(exc):
+        if flags.debug:
             raise
+        if not _is_usage_error(exc):
+            # A bug: one line that names it and how to see more, not a page of traceback.
+            text = (str(exc).strip().splitlines() or [""])[0]
+            sys.stderr.write(f"tunelab: internal error: {type(exc).__name__}{': ' + text if text else ''}"
+                             " — a bug in tunelab; run again with --debug for the traceback, and report it\n")
+            sys.exit(EXIT_BUG)
         ctx = getattr(exc, "ctx", None)
         name = getattr(ctx, "info_name", None)
         where = f"tunelab {name}" if name and name != "tunelab" else "tunelab"
