@@ -82,6 +82,7 @@ def replay_halving(trials: list[Any], maximise: bool) -> dict[str, Any]:
     if not done:
         return {"replayed": 0, "stopped": 0, "stopped_better": 0, "best_stopped": False}
     pruner = make_pruner("halving")
+    optuna.logging.set_verbosity(optuna.logging.WARNING)  # the in-memory replay study need not announce itself
     study = optuna.create_study(direction="maximize" if maximise else "minimize")
     family = {"family": optuna.distributions.CategoricalDistribution(
         sorted({str(t.params.get("family")) for t in done}))}
