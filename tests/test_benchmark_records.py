@@ -75,3 +75,18 @@ def test_pruning_summary_reprints_the_pooled_table_of_seeds_8_to_15(capsys: pyte
     assert "equal or better test score with pruning:      5 of 6" in pooled
     assert "equal or better best cv score with pruning:   3 of 6" in pooled
     assert "4.52x" in pooled  # credit
+
+
+def test_suite_summary_reprints_the_held_back_table_both_readmes_quote(capsys: pytest.CaptureFixture[str]) -> None:
+    from benchmarks import suite
+
+    summary = RECORDS / "suite-held-seeds-41-42" / "summary.json.gz"
+    assert suite.main(["--combine", str(summary), "--markdown", "held"]) == 0
+    rows = capsys.readouterr().out.strip().splitlines()[2:]
+    assert [r.split(" | ")[0] for r in rows] == ["| roc_auc", "| accuracy", "| rmse", "| log_loss", "| mae"]
+    quoted = (REPO / "benchmarks" / "README.md").read_text()
+    for row in rows:  # the script's table, row for row, is the one benchmarks/README.md shows
+        assert row.replace(" | 41, 42 | ", " | ") in quoted
+    # The root README quotes the same numbers under its own headings.
+    root = (REPO / "README.md").read_text()
+    assert "| ROC AUC (5 binary tables) | 3 of 5 | 3 of 5 | 0.502 / 0.514 / 0.616 | 1 of 5 |" in root
