@@ -74,7 +74,8 @@ def replay_halving(trials: list[Any], maximise: bool) -> dict[str, Any]:
     Each finished trial is judged at each step it reported, against the trials before it as the
     replay left them (pruned at the step it stopped, or finished), by the pruner a pruned search
     uses.  Returns the trials replayed, those stopped, the stopped ones whose finished score beats
-    the best of those let through, and whether the study's own best was stopped.
+    the best of those let through, and whether the study's best score was lost (no trial let through
+    ties it).
     """
     from tunelab.engine import make_pruner
 
@@ -101,10 +102,9 @@ def replay_halving(trials: list[Any], maximise: bool) -> dict[str, Any]:
         (through if at is None else stopped).append(t)
     sign = 1.0 if maximise else -1.0
     best_through = max((sign * t.value for t in through), default=-math.inf)
-    best = max(done, key=lambda t: sign * t.value)
-    return {"replayed": len(done), "stopped": len(stopped),
-            "stopped_better": sum(1 for t in stopped if sign * t.value > best_through),
-            "best_stopped": any(t.number == best.number for t in stopped)}
+    better = sum(1 for t in stopped if sign * t.value > best_through)
+    # The best is lost only when no trial let through ties it (accuracy ties often: olive, 1.0).
+    return {"replayed": len(done), "stopped": len(stopped), "stopped_better": better, "best_stopped": better > 0}
 
 
 def run_once(name: str, pruning: str, budget: str, seed: int, threads: int, workdir: Path,
@@ -175,8 +175,10 @@ def _replay_columns(replay: dict[str, Any] | None) -> dict[str, Any]:
     if not replay:
         return {}
     return {"replay stopped": f"{replay['stopped']}/{replay['replayed']}",
-            "stopped beat kept": replay["stopped_better"], "best stopped": int(replay["best_stopped"]),
-            "studies": replay.get("studies", 1)}
+            "stopped beat kept": replay["stopped_better"], "studies": replay.get("studies", 1),
+            # pooled: a count of studies; one run: whether its best was lost (read from the count, so that
+            # records written before ties were counted as kept read the same way)
+            "best stopped": replay["best_stopped"] if "studies" in replay else int(replay["stopped_better"] > 0)}
 
 
 def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
@@ -201,8 +203,8 @@ def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
             for key, value in r["counts"].items():
                 counts[key] = counts.get(key, 0) + value
         replays = [r["replay"] for r in group if r.get("replay")]
-        replay = {key: sum(x[key] for x in replays)
-                  for key in ("replayed", "stopped", "stopped_better", "best_stopped")}
+        replay = {key: sum(x[key] for x in replays) for key in ("replayed", "stopped", "stopped_better")}
+        replay["best_stopped"] = sum(int(x["stopped_better"] > 0) for x in replays)
         replay["studies"] = len(replays)
         pooled.append({**group[0], "counts": counts, "seeds": sorted(r.get("seed", 0) for r in group),
                        "replay": replay if replays else None,

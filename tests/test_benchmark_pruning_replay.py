@@ -41,6 +41,14 @@ def test_a_stopped_trial_that_also_ends_worse_is_not_a_lost_winner() -> None:
     assert replay == {"replayed": 3, "stopped": 1, "stopped_better": 0, "best_stopped": False}
 
 
+def test_a_stopped_trial_tied_with_one_let_through_does_not_lose_the_best() -> None:
+    # Accuracy ties often (1.0 on an easy table): the score is kept although that trial was stopped.
+    # Trial 1 is stopped after one fold and would have ended at 1.0; trial 2, let through, ends there too.
+    trials = [_trial(0, 0.90, 0.95), _trial(1, 0.50, 1.0), _trial(2, 0.95, 1.0)]
+    replay = replay_halving(trials, maximise=True)
+    assert replay == {"replayed": 3, "stopped": 1, "stopped_better": 0, "best_stopped": False}
+
+
 def test_for_a_loss_lower_is_better_and_the_first_trial_has_no_peer_to_be_judged_by() -> None:
     trials = [_trial(0, 1.0, 1.0), _trial(1, 2.0, 0.5), _trial(2, 0.9, 0.95)]
     replay = replay_halving(trials, maximise=False)
