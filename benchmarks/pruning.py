@@ -160,7 +160,8 @@ def side_by_side(records: list[dict[str, Any]], on: str) -> pd.DataFrame:
             "configs/min off": off["per_minute"], "configs/min on": pruned["per_minute"],
             "ratio": pruned["per_minute"] / max(off["per_minute"], 1e-9),
             "pruned on": pruned["counts"].get("pruned", 0),
-            "pruned share": pruned["counts"].get("pruned", 0) / max(pruned["evaluated"], 1),
+            # counts are summed over pooled seeds, so the share is taken of them, not of the mean evaluated
+            "pruned share": _pruned_share(pruned["counts"]),
             "cv off": off["cv_best"], "cv on": pruned["cv_best"],
             "cv on >= off": _equal_or_better(metric, pruned["cv_best"], off["cv_best"]),
             "test off": off["score"], "test on": pruned["score"],
@@ -168,6 +169,10 @@ def side_by_side(records: list[dict[str, Any]], on: str) -> pd.DataFrame:
             **_replay_columns(off.get("replay")),
         })
     return pd.DataFrame(rows).set_index("dataset")
+
+
+def _pruned_share(counts: dict[str, int]) -> float:
+    return counts.get("pruned", 0) / max(sum(counts.get(k, 0) for k in VERDICTS), 1)
 
 
 def _replay_columns(replay: dict[str, Any] | None) -> dict[str, Any]:
