@@ -90,3 +90,13 @@ def test_suite_summary_reprints_the_held_back_table_both_readmes_quote(capsys: p
     # The root README quotes the same numbers under its own headings.
     root = (REPO / "README.md").read_text()
     assert "| ROC AUC (5 binary tables) | 3 of 5 | 3 of 5 | 0.502 / 0.514 / 0.616 | 1 of 5 |" in root
+
+
+def test_pruning_under_accuracy_records_reprint_the_quoted_verdict(capsys: pytest.CaptureFixture[str]) -> None:
+    files = sorted(str(p) for p in (RECORDS / "pruning-accuracy-seeds-44-46").glob("*.json"))
+    assert pruning.main(["--combine", *files]) == 0
+    pooled = capsys.readouterr().out.split("mean over seeds 44, 45, 46")[1]
+    # benchmarks/README.md and docs/experiments/pruning.md: 2x on 5 of 5, test 4 of 5, best lost in 5 of 15.
+    assert "at least 2x the configurations per minute:    5 of 5" in pooled
+    assert "equal or better test score with pruning:      4 of 5" in pooled
+    assert "unpruned best stopped by the replayed rule:  5 of 15 unpruned studies" in pooled
