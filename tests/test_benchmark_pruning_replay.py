@@ -28,31 +28,29 @@ def _trial(number: int, after_one_fold: float, final: float, family: str = "hist
                        intermediate={FOLD: after_one_fold, 2 * FOLD: final})
 
 
-def test_a_late_bloomer_stopped_at_the_first_fold_counts_as_a_stopped_winner() -> None:
+# (fold-1 value, finished value) per trial, in order; direction; what the replay must find.
+CASES = {
     # Trial 1 trails trial 0 after one fold (0.50 against 0.90: the best third of two is one) but ends best.
-    trials = [_trial(0, 0.90, 0.90), _trial(1, 0.50, 0.95), _trial(2, 0.95, 0.92)]
-    replay = replay_halving(trials, maximise=True)
-    assert replay == {"replayed": 3, "stopped": 1, "stopped_better": 1, "best_stopped": True}
+    "a late bloomer stopped at the first fold is a stopped winner":
+        ([(0.90, 0.90), (0.50, 0.95), (0.95, 0.92)], True, (1, 1, True)),
+    "a stopped trial that also ends worse is not a lost winner":
+        ([(0.90, 0.90), (0.50, 0.60), (0.95, 0.92)], True, (1, 0, False)),
+    # Accuracy ties often (1.0 on an easy table): trial 1 is stopped and would have ended at 1.0,
+    # but trial 2, let through, ends there too, so the best score is not lost.
+    "a stopped trial tied with one let through does not lose the best":
+        ([(0.90, 0.95), (0.50, 1.0), (0.95, 1.0)], True, (1, 0, False)),
+    # For a loss lower is better; the first trial has no peer to be judged by.
+    "for a loss lower is better":
+        ([(1.0, 1.0), (2.0, 0.5), (0.9, 0.95)], False, (1, 1, True)),
+}
 
 
-def test_a_stopped_trial_that_also_ends_worse_is_not_a_lost_winner() -> None:
-    trials = [_trial(0, 0.90, 0.90), _trial(1, 0.50, 0.60), _trial(2, 0.95, 0.92)]
-    replay = replay_halving(trials, maximise=True)
-    assert replay == {"replayed": 3, "stopped": 1, "stopped_better": 0, "best_stopped": False}
-
-
-def test_a_stopped_trial_tied_with_one_let_through_does_not_lose_the_best() -> None:
-    # Accuracy ties often (1.0 on an easy table): the score is kept although that trial was stopped.
-    # Trial 1 is stopped after one fold and would have ended at 1.0; trial 2, let through, ends there too.
-    trials = [_trial(0, 0.90, 0.95), _trial(1, 0.50, 1.0), _trial(2, 0.95, 1.0)]
-    replay = replay_halving(trials, maximise=True)
-    assert replay == {"replayed": 3, "stopped": 1, "stopped_better": 0, "best_stopped": False}
-
-
-def test_for_a_loss_lower_is_better_and_the_first_trial_has_no_peer_to_be_judged_by() -> None:
-    trials = [_trial(0, 1.0, 1.0), _trial(1, 2.0, 0.5), _trial(2, 0.9, 0.95)]
-    replay = replay_halving(trials, maximise=False)
-    assert replay == {"replayed": 3, "stopped": 1, "stopped_better": 1, "best_stopped": True}
+@pytest.mark.parametrize("case", list(CASES))
+def test_the_replay_stops_and_counts_as_the_halving_rule_would(case: str) -> None:
+    values, maximise, (stopped, better, lost) = CASES[case]
+    trials = [_trial(n, first, final) for n, (first, final) in enumerate(values)]
+    assert replay_halving(trials, maximise=maximise) == {"replayed": len(values), "stopped": stopped,
+                                                         "stopped_better": better, "best_stopped": lost}
 
 
 def test_pruned_or_unfinished_trials_of_the_study_are_not_replayed() -> None:
