@@ -234,6 +234,24 @@ def test_a_bug_is_one_line_naming_it_with_exit_1_and_debug_shows_the_traceback(c
         cli("--debug", "status", "--store", str(store_path))
 
 
+def test_a_bug_with_an_empty_message_is_named_by_its_type_alone(cli, store_path, monkeypatch):
+    import tunelab.ops
+
+    def broken(*args, **kwargs):
+        raise KeyError()
+
+    monkeypatch.setattr(tunelab.ops, "list_studies", broken)
+    result = cli("status", "--store", str(store_path))
+    assert result.code == 1 and result.err.startswith("tunelab: internal error: KeyError — a bug in tunelab")
+
+
+def test_one_line_of_a_library_error_is_its_first_line_or_its_type():
+    from tunelab.errors import first_line
+
+    assert first_line(ValueError("  disk I/O error\n[SQL: INSERT ...]\n")) == "disk I/O error"
+    assert first_line(OSError()) == "OSError"
+
+
 def test_a_reader_that_goes_away_ends_the_command_quietly(cli, store_path, monkeypatch):
     import tunelab.ops
 

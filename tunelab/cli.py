@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Any, Protocol, TypeGuard
 
 import typer
 
-from tunelab.errors import TunelabError
+from tunelab.errors import TunelabError, first_line
 
 if TYPE_CHECKING:
     from tunelab.ops import RunResult
@@ -586,8 +586,8 @@ def main(argv: list[str] | None = None) -> None:
             raise
         if not _is_usage_error(exc):
             # A bug: one line that names it and how to see more, not a page of traceback.
-            text = (str(exc).strip().splitlines() or [""])[0]
-            sys.stderr.write(f"tunelab: internal error: {type(exc).__name__}{': ' + text if text else ''}"
+            detail = f": {first_line(exc)}" if str(exc).strip() else ""
+            sys.stderr.write(f"tunelab: internal error: {type(exc).__name__}{detail}"
                              " — a bug in tunelab; run again with --debug for the traceback, and report it\n")
             sys.exit(EXIT_BUG)
         ctx = getattr(exc, "ctx", None)

@@ -72,6 +72,15 @@ class ModelFileError(TunelabError):
     """A model file is missing, altered, or does not match the input columns."""
 
 
+def first_line(exc: BaseException) -> str:
+    """The first line of an exception's message, or its type's name: what fits on one line of output.
+
+    Library errors (SQLAlchemy, pandas, torch) often carry pages of detail after the first line.
+    """
+    lines = str(exc).strip().splitlines()
+    return lines[0] if lines else type(exc).__name__
+
+
 __all__ = [
     "BudgetError",
     "InputError",
@@ -80,4 +89,5 @@ __all__ = [
     "StudyNotFound",
     "StudyStateError",
     "TunelabError",
+    "first_line",
 ]

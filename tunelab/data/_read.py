@@ -16,7 +16,7 @@ from typing import Any, BinaryIO
 
 import pandas as pd
 
-from tunelab.errors import InputError
+from tunelab.errors import InputError, first_line
 
 CSV_SUFFIXES = {".csv", ".tsv", ".txt", ".data"}
 PARQUET_SUFFIXES = {".parquet", ".pq"}
@@ -70,7 +70,7 @@ def _read_parquet(path: Path) -> pd.DataFrame:
     try:
         frame = pd.read_parquet(path)
     except Exception as exc:  # pyarrow raises many types; all mean "not a readable parquet file"
-        raise InputError(f"cannot read {path} as Parquet: {_first_line(exc)}", "check the file") from exc
+        raise InputError(f"cannot read {path} as Parquet: {first_line(exc)}", "check the file") from exc
     _check_unique_columns(list(map(str, frame.columns)), path)
     frame.columns = [str(c) for c in frame.columns]
     return frame
@@ -134,7 +134,7 @@ def _read_csv(path: Path) -> tuple[pd.DataFrame, str]:
         except pd.errors.EmptyDataError as exc:
             raise InputError(f"data file is empty: {path}", "pass a file with a header row and data rows") from exc
         except (pd.errors.ParserError, ValueError) as exc:
-            raise InputError(f"cannot parse {path} as CSV: {_first_line(exc)}",
+            raise InputError(f"cannot parse {path} as CSV: {first_line(exc)}",
                              "check quoting and delimiters") from exc
         sha = stream.finish()
     frame.columns = [str(c).strip() for c in frame.columns]
@@ -159,6 +159,3 @@ def _check_unique_columns(names: list[str], path: Path) -> None:
         )
 
 
-def _first_line(exc: BaseException) -> str:
-    text = str(exc).strip().splitlines()
-    return text[0] if text else type(exc).__name__

@@ -17,7 +17,7 @@ from typing import Any
 import joblib
 import pandas as pd
 
-from tunelab.errors import ModelFileError
+from tunelab.errors import ModelFileError, first_line
 from tunelab.files import write_atomically
 
 FORMAT = "tunelab-model"
@@ -49,7 +49,7 @@ def read_meta(path: Path) -> dict[str, Any]:
             meta = json.loads(archive.read("meta.json"))
     except (zipfile.BadZipFile, KeyError, EOFError, zlib.error, json.JSONDecodeError, UnicodeDecodeError) as exc:
         if _zip_header(path) and "meta.json" in _names(path):  # a model file that got damaged
-            raise ModelFileError(f"model file {path} is damaged ({_first_line(exc)})", _EXPORT_AGAIN) from exc
+            raise ModelFileError(f"model file {path} is damaged ({first_line(exc)})", _EXPORT_AGAIN) from exc
         raise ModelFileError(f"{path} is not a tunelab model file", "export one with `tunelab export`") from exc
     except OSError as exc:
         raise ModelFileError(f"cannot read the model file {path}: {exc.strerror or exc}",
@@ -77,7 +77,7 @@ def load_pipeline(path: Path, meta: dict[str, Any]) -> Any:
         with zipfile.ZipFile(path) as archive:
             payload = archive.read("pipeline.joblib")
     except (zipfile.BadZipFile, KeyError, EOFError, zlib.error, OSError) as exc:
-        raise ModelFileError(f"model file {path} is damaged ({_first_line(exc)})", _EXPORT_AGAIN) from exc
+        raise ModelFileError(f"model file {path} is damaged ({first_line(exc)})", _EXPORT_AGAIN) from exc
     if hashlib.sha256(payload).hexdigest() != meta.get("pipeline_sha256"):
         raise ModelFileError(f"{path} was altered after export (pipeline hash differs)",
                              "export the model again; do not load a file you cannot trust")
@@ -101,6 +101,3 @@ def _names(path: Path) -> list[str]:
         return []
 
 
-def _first_line(exc: BaseException) -> str:
-    lines = str(exc).strip().splitlines()
-    return lines[0] if lines else type(exc).__name__

@@ -21,7 +21,7 @@ from sqlalchemy import create_engine, event, func, inspect, select, text, update
 from sqlalchemy.engine import Engine
 from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 
-from tunelab.errors import InputError, StoreError, StudyNotFound
+from tunelab.errors import InputError, StoreError, StudyNotFound, first_line
 from tunelab.store import _keys as k, _schema as s
 from tunelab.store._location import Location, check_sqlite_file, resolve
 from tunelab.store._migrations import MIGRATIONS
@@ -200,7 +200,7 @@ class Store:
         except DBAPIError as exc:
             raise _store_error(self.location, doing, exc) from exc
         except SQLAlchemyError as exc:
-            raise StoreError(f"store error while trying to {doing}: {_first_line(exc)}",
+            raise StoreError(f"store error while trying to {doing}: {first_line(exc)}",
                              "run again with --debug for details") from exc
 
     def translate(self, exc: BaseException, doing: str, study: str | None = None) -> StoreError | None:
@@ -214,7 +214,7 @@ class Store:
                 return _store_error(self.location, doing, seen, study)
             seen = seen.__cause__ or seen.__context__
         if isinstance(exc, SQLAlchemyError) or type(exc).__name__ == "StorageInternalError":
-            return StoreError(f"store error while trying to {doing}: {_first_line(exc)}",
+            return StoreError(f"store error while trying to {doing}: {first_line(exc)}",
                               "run again with --debug for details")
         return None
 
@@ -552,7 +552,7 @@ def _server_engine(location: Location) -> Engine:
     try:
         return create_engine(location.url, **kwargs)
     except (ArgumentError, ImportError) as exc:
-        raise StoreError(f"cannot use store URL scheme '{scheme}': {_first_line(exc)}",
+        raise StoreError(f"cannot use store URL scheme '{scheme}': {first_line(exc)}",
                          "use a file path, sqlite:///PATH or postgresql://USER@HOST/DB") from exc
 
 
@@ -589,10 +589,6 @@ def _study(row: Any) -> StudyRecord:
     return StudyRecord(**data)
 
 
-def _first_line(exc: BaseException) -> str:
-    text = str(exc).strip().splitlines()
-    return text[0] if text else type(exc).__name__
-
 
 def _again(study: str | None) -> str:
     """How to go on after a store fault: the study is intact, so resume it (or repeat a command outside one)."""
@@ -604,7 +600,7 @@ def _disk_full_hint(study: str | None) -> str:
 
 
 def _store_error(location: Location, doing: str, exc: DBAPIError, study: str | None = None) -> StoreError:
-    text = _first_line(exc.orig if exc.orig is not None else exc)
+    text = first_line(exc.orig if exc.orig is not None else exc)
     where = location.display()
     lowered = text.lower()
     again = _again(study)
