@@ -81,7 +81,14 @@ def _svm(p: Mapping[str, Any], task: str, seed: int, threads: int) -> Any:
     from sklearn.svm import SVC, SVR
 
     if task == "regression":
-        return SVR(C=float(p.get("C", 1.0)), gamma=p.get("gamma", "scale"))
+        from sklearn.compose import TransformedTargetRegressor
+        from sklearn.preprocessing import StandardScaler
+
+        # SVR's epsilon tube (0.1) and C are in the target's units: on a price in thousands the tube
+        # is nothing and C = 1 flattens the fit. On a standardised target both mean the same on every
+        # table, and predictions come back in the target's units.
+        return TransformedTargetRegressor(regressor=SVR(C=float(p.get("C", 1.0)), gamma=p.get("gamma", "scale")),
+                                          transformer=StandardScaler())
     return SVC(C=float(p.get("C", 1.0)), gamma=p.get("gamma", "scale"), probability=True,
                class_weight=p.get("class_weight"), random_state=seed)
 
