@@ -31,7 +31,7 @@ from tunelab.engine import (
     settled_config,
 )
 from tunelab.engine._objective import _epoch_reporter
-from tunelab.engine._pruning import MARGIN_SE, MedianPruner, RungPruner, choose_pruning, fold_noise
+from tunelab.engine._pruning import COARSE_MARGIN_SE, MARGIN_SE, MedianPruner, RungPruner, choose_pruning, fold_noise
 from tunelab.errors import InputError
 from tunelab.evaluation import score
 from tunelab.models import build_pipeline
@@ -374,7 +374,8 @@ def test_fold_noise_is_the_residual_of_trial_and_fold_effects_as_a_two_way_anova
     study = optuna.create_study(direction="maximize")
     for row in scores:
         finished_with_folds(study, row)
-    long = pd.DataFrame([(t, f, scores[t, f]) for t in range(6) for f in range(5)], columns=["trial", "fold", "score"])
+    # Only folds 1-4 are reported (a trial's last fold never is): the noise is that of the reported folds.
+    long = pd.DataFrame([(t, f, scores[t, f]) for t in range(6) for f in range(4)], columns=["trial", "fold", "score"])
     table = anova_lm(smf.ols("score ~ C(trial) + C(fold)", data=long).fit())
     assert fold_noise(study) == pytest.approx(math.sqrt(table.loc["Residual", "mean_sq"]), rel=1e-9)
 
@@ -394,7 +395,7 @@ def test_a_trial_behind_the_kept_share_by_less_than_chance_goes_on_and_further_b
     # Two finished trials that disagree fold by fold (+-0.02 each way): a residual spread of
     # sqrt(8 * 0.02**2 / 4) = 0.0283, so after one fold two running means differ by chance with
     # a standard deviation of 0.0283 * sqrt(2) = 0.04.
-    wobble = np.array([0.02, -0.02, 0.02, -0.02, 0.0])
+    wobble = np.array([0.02, -0.02, 0.02, -0.02, 0.0, 0.0])  # six folds: the first five are reported
 
     def two_finished(**kwargs):
         study = rung_study(min_peers=2, **kwargs)
@@ -412,6 +413,27 @@ def test_a_trial_behind_the_kept_share_by_less_than_chance_goes_on_and_further_b
     # Without a margin (the default) the textbook rule prunes the first one too.
     assert MARGIN_SE == 0
     assert ask_and_report(two_finished(), {3: best_third_at_fold_one - 0.9 * margin})
+
+
+def test_chance_is_measured_in_the_units_the_rungs_rank_by_not_in_the_metric_on_the_folds():
+    # Under accuracy the rungs compare Brier scores while fold_scores keep accuracy: a margin in
+    # accuracy's units would be the wrong size for Brier differences.
+    study = optuna.create_study(direction="maximize")
+    for sign in (1.0, -1.0):  # two trials that disagree fold by fold, as in the test above
+        brier = -0.20 + sign * np.array([0.02, -0.02, 0.02, -0.02, 0.0])  # reported folds 1-5 of six
+        trial = study.ask()
+        for fold in range(1, 6):
+            trial.report(float(np.mean(brier[:fold])), 3 * fold)
+        trial.set_user_attr("fold_scores", [0.5, 0.9, 0.1, 0.7, 0.3, 0.6])  # accuracy, far noisier
+        study.tell(trial, 0.5)
+    assert fold_noise(study) == pytest.approx(0.02 * math.sqrt(2))
+
+
+def test_under_a_coarse_metric_halving_prunes_only_past_a_margin_of_chance():
+    assert make_pruner("halving", max_steps=5).margin_se == MARGIN_SE == 0
+    assert make_pruner("halving", max_steps=5, coarse=True).margin_se == COARSE_MARGIN_SE > 0
+    assert make_pruner("hyperband", max_steps=5, coarse=True).margin_se == COARSE_MARGIN_SE
+    assert make_pruner("auto", max_steps=5, expected_trials=50, coarse=True).margin_se == COARSE_MARGIN_SE
 
 
 def test_without_two_finished_trials_to_measure_chance_a_rung_prunes_by_rank_alone():
