@@ -80,16 +80,17 @@ def test_pruning_summary_reprints_the_pooled_table_of_seeds_8_to_15(capsys: pyte
 def test_suite_summary_reprints_the_held_back_table_both_readmes_quote(capsys: pytest.CaptureFixture[str]) -> None:
     from benchmarks import suite
 
-    summary = RECORDS / "suite-held-seeds-41-42" / "summary.json.gz"
+    summary = RECORDS / "suite-held-seeds-41-43" / "summary.json.gz"
     assert suite.main(["--combine", str(summary), "--markdown", "held"]) == 0
     rows = capsys.readouterr().out.strip().splitlines()[2:]
     assert [r.split(" | ")[0] for r in rows] == ["| roc_auc", "| accuracy", "| rmse", "| log_loss", "| mae"]
     quoted = (REPO / "benchmarks" / "README.md").read_text()
     for row in rows:  # the script's table, row for row, is the one benchmarks/README.md shows
-        assert row.replace(" | 41, 42 | ", " | ") in quoted
+        assert row.replace(" | 41, 42, 43 | ", " | ") in quoted
     # The root README quotes the same numbers under its own headings.
     root = (REPO / "README.md").read_text()
-    assert "| ROC AUC (5 binary tables) | 3 of 5 | 3 of 5 | 0.502 / 0.514 / 0.616 | 1 of 5 |" in root
+    assert "| ROC AUC (5 binary tables) | 3 of 5 | 3 of 5 | 0.831 / 0.764 / 0.782 | 0 of 5 |" in root
+    assert "| log loss (5 binary + 5 multiclass) | 8 of 10 | 8 of 10 | 0.967 / 0.858 / 0.817 | 1 of 10 |" in root
 
 
 def test_pruning_under_accuracy_records_reprint_the_quoted_verdict(capsys: pytest.CaptureFixture[str]) -> None:
