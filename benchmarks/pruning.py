@@ -68,21 +68,21 @@ def space_file(name: str, budget: str, seed: int, threads: int, workdir: Path, e
     return out
 
 
-def replay_halving(trials: list[Any], maximise: bool, coarse: bool = False) -> dict[str, Any]:
+def replay_halving(trials: list[Any], maximise: bool) -> dict[str, Any]:
     """The halving rule replayed over an unpruned study's trials (``tunelab.store.TrialRecord``), in order.
 
     Each finished trial is judged at each step it reported, against the trials before it as the
     replay left them (pruned at the step it stopped, or finished), by the pruner a pruned search
-    uses (``coarse``: for a metric ranked at the rungs by a smooth stand-in).  Returns the trials
-    replayed, those stopped, the stopped ones whose finished score beats the best of those let
-    through, and whether the study's best score was lost (no trial let through ties it).
+    uses.  Returns the trials replayed, those stopped, the stopped ones whose finished score beats
+    the best of those let through, and whether the study's best score was lost (no trial let through
+    ties it).
     """
     from tunelab.engine import make_pruner
 
     done = sorted((t for t in trials if t.state == "complete" and t.value is not None), key=lambda t: t.number)
     if not done:
         return {"replayed": 0, "stopped": 0, "stopped_better": 0, "best_stopped": False}
-    pruner = make_pruner("halving", coarse=coarse)
+    pruner = make_pruner("halving")
     optuna.logging.set_verbosity(optuna.logging.WARNING)  # the in-memory replay study need not announce itself
     study = optuna.create_study(direction="maximize" if maximise else "minimize")
     family = {"family": optuna.distributions.CategoricalDistribution(
@@ -110,7 +110,6 @@ def replay_halving(trials: list[Any], maximise: bool, coarse: bool = False) -> d
 def run_once(name: str, pruning: str, budget: str, seed: int, threads: int, workdir: Path,
              executable: str, metric: str | None = None) -> dict[str, Any]:
     """One study on one dataset: search, export, predict, score; with the trial counts."""
-    from tunelab.evaluation import resolve_metric
     from tunelab.ops import list_studies
     from tunelab.store import Store
 
@@ -137,8 +136,7 @@ def run_once(name: str, pruning: str, budget: str, seed: int, threads: int, work
     replay = None
     if pruning == "off":
         with Store.open(str(store)) as opened:
-            replay = replay_halving(opened.trials(name), HIGHER_IS_BETTER[metric],
-                                    coarse=resolve_metric(metric, spec.task).rank_by is not None)
+            replay = replay_halving(opened.trials(name), HIGHER_IS_BETTER[metric])
     return {
         "dataset": name, "task": spec.task, "pruning": pruning, "metric": metric,
         "score": scores[metric], "scores": scores, "counts": line.counts,

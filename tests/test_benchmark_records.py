@@ -101,3 +101,13 @@ def test_pruning_under_accuracy_records_reprint_the_quoted_verdict(capsys: pytes
     assert "at least 2x the configurations per minute:    5 of 5" in pooled
     assert "equal or better test score with pruning:      4 of 5" in pooled
     assert "unpruned best stopped by the replayed rule:  5 of 15 unpruned studies" in pooled
+
+
+def test_the_rejected_margin_under_accuracy_reprints_its_verdict(capsys: pytest.CaptureFixture[str]) -> None:
+    files = sorted(str(p) for p in (RECORDS / "pruning-accuracy-seeds-47-49").glob("*.json"))
+    assert pruning.main(["--combine", *files]) == 0
+    pooled = capsys.readouterr().out.split("mean over seeds 47, 48, 49")[1]
+    # benchmarks/README.md and docs/experiments/pruning.md: 2x on 0 of 5, test 3 of 5, best lost in 4 of 15.
+    assert "at least 2x the configurations per minute:    0 of 5" in pooled
+    assert "equal or better test score with pruning:      3 of 5" in pooled
+    assert "unpruned best stopped by the replayed rule:  4 of 15 unpruned studies" in pooled

@@ -31,7 +31,7 @@ from tunelab.engine import (
     settled_config,
 )
 from tunelab.engine._objective import _epoch_reporter
-from tunelab.engine._pruning import COARSE_MARGIN_SE, MARGIN_SE, MedianPruner, RungPruner, choose_pruning, fold_noise
+from tunelab.engine._pruning import MARGIN_SE, MedianPruner, RungPruner, choose_pruning, fold_noise
 from tunelab.errors import InputError
 from tunelab.evaluation import score
 from tunelab.models import build_pipeline
@@ -427,13 +427,6 @@ def test_chance_is_measured_in_the_units_the_rungs_rank_by_not_in_the_metric_on_
         trial.set_user_attr("fold_scores", [0.5, 0.9, 0.1, 0.7, 0.3, 0.6])  # accuracy, far noisier
         study.tell(trial, 0.5)
     assert fold_noise(study) == pytest.approx(0.02 * math.sqrt(2))
-
-
-def test_under_a_coarse_metric_halving_prunes_only_past_a_margin_of_chance():
-    assert make_pruner("halving", max_steps=5).margin_se == MARGIN_SE == 0
-    assert make_pruner("halving", max_steps=5, coarse=True).margin_se == COARSE_MARGIN_SE > 0
-    assert make_pruner("hyperband", max_steps=5, coarse=True).margin_se == COARSE_MARGIN_SE
-    assert make_pruner("auto", max_steps=5, expected_trials=50, coarse=True).margin_se == COARSE_MARGIN_SE
 
 
 def test_without_two_finished_trials_to_measure_chance_a_rung_prunes_by_rank_alone():

@@ -30,9 +30,10 @@ step 3 one fold, step 6 two folds.  Three things follow for a fair comparison:
 * optionally (``margin_se``), a trial must trail the kept share by more than chance: a number
   of standard errors of the difference between two trials' running means (``fold_noise``,
   measured on the finished trials).  It keeps more of the trials that end best on the folds, but
-  not of those that end best on new rows, so it is off by default (see ``MARGIN_SE``) except
-  under a coarse metric (accuracy), where a fold's third is a handful of right/wrong counts, the
-  rungs rank by the Brier score, and rank alone stopped late bloomers (``COARSE_MARGIN_SE``).
+  not of those that end best on new rows, so it is off by default (see ``MARGIN_SE``).  Under
+  accuracy too: 0.75 standard errors, chosen on the development half, cost the held-back half its
+  speed (1.2-2.0x the configurations per minute instead of 2.0-3.4x) and kept no more of the best
+  (docs/experiments/pruning.md, seeds 47-49).  The noise is measured in the units the rungs rank by.
 
 :class:`RungPruner` is asynchronous successive halving on that basis (``halving``, and
 ``hyperband`` as three brackets of it); :class:`MedianPruner` is the median rule.  Both are
@@ -73,10 +74,6 @@ MARGIN_SE = 0.0  # how far past the kept share a trial must trail, in standard e
 # six datasets, two seeds), half a standard error stopped the search's eventual best in 2 of 12 against 7 with
 # none; run for real (benchmarks/pruning.py, seeds 0-1) it found an equal or better best CV on 5 of 6 but an
 # equal or better test score on 1 of 6, at 1.3-3.3x the configurations per minute (benchmarks/README.md)
-COARSE_MARGIN_SE = 0.75  # the margin under a coarse metric (accuracy), ranked at the rungs by the Brier score:
-# with a third kept by rank alone, halving stopped the unpruned study's best in 5 of 15 held-back studies
-# (seeds 44-46); replayed over ten development-half studies (seeds 90-91), 0.5 standard errors lost it in 4,
-# 0.75 and 1.0 in 1, at 1.3-2.9x and 1.2-2.8x in a work proxy (docs/experiments/pruning.md)
 FEW_TRIALS = 4  # below this many expected trials there is nothing to rank (common practice, no source); even
 # at about 10 (hpc, 60 s) halving bought 1.9x the configurations and a better best CV score in benchmarks/pruning.py
 
@@ -278,7 +275,7 @@ def choose_pruning(expected_trials: float | None) -> str:
 
 
 def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: float | None = None,
-                row_rungs: int = 0, coarse: bool = False) -> BasePruner:
+                row_rungs: int = 0) -> BasePruner:
     """The pruner for ``kind`` (one of ``PRUNING_CHOICES``).
 
     Parameters
@@ -294,10 +291,6 @@ def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: flo
     row_rungs
         The study's row rungs (rows as a fidelity); ``auto`` then always means halving, which is
         what climbs the ladder, and ``off`` is refused (a study with row rungs needs a pruner).
-    coarse
-        The study's metric is too coarse to rank on part of the data and the rungs rank by a
-        smooth stand-in (``Metric.rank_by``): halving then prunes only a trial that trails the
-        kept share by more than ``COARSE_MARGIN_SE`` standard errors (``fold_noise``).
 
     Raises
     ------
@@ -315,7 +308,6 @@ def make_pruner(kind: str, *, max_steps: int | None = None, expected_trials: flo
         return optuna.pruners.NopPruner()
     if kind == "median":
         return MedianPruner(row_rungs=row_rungs)
-    margin = COARSE_MARGIN_SE if coarse else MARGIN_SE
     if kind == "halving":
-        return RungPruner(row_rungs=row_rungs, margin_se=margin)
-    return RungPruner(brackets=3, row_rungs=row_rungs, margin_se=margin)
+        return RungPruner(row_rungs=row_rungs)
+    return RungPruner(brackets=3, row_rungs=row_rungs)

@@ -18,7 +18,6 @@ from optuna.distributions import BaseDistribution
 
 from tunelab.engine._pruning import make_pruner
 from tunelab.errors import InputError
-from tunelab.evaluation import METRICS
 from tunelab.store import Store, StudyRecord, TrialRecord, keys, record_of
 
 SAMPLERS = ("tpe", "random")
@@ -89,8 +88,7 @@ def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, 
     n_folds = int(record.settings.get("n_folds", 5))
     pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
                          expected_trials=record.settings.get("expected_trials"),
-                         row_rungs=len(record.settings.get(keys.ROW_SHARES) or ()),
-                         coarse=getattr(METRICS.get(record.metric), "rank_by", None) is not None)
+                         row_rungs=len(record.settings.get(keys.ROW_SHARES) or ()))
     if optuna.logging.get_verbosity() < optuna.logging.WARNING:  # tunelab reports study creation itself;
         optuna.logging.set_verbosity(optuna.logging.WARNING)  # the command line keeps its own, stricter level
     storage = store.optuna_storage()
