@@ -179,11 +179,21 @@ def _replay_columns(replay: dict[str, Any] | None) -> dict[str, Any]:
     """The replay's counts as table columns (absent from runs made before the replay existed)."""
     if not replay:
         return {}
-    return {"replay stopped": f"{replay['stopped']}/{replay['replayed']}",
-            "stopped beat kept": replay["stopped_better"], "studies": replay.get("studies", 1),
-            # pooled: a count of studies; one run: whether its best was lost (read from the count, so that
-            # records written before ties were counted as kept read the same way)
-            "best stopped": replay["best_stopped"] if "studies" in replay else int(replay["stopped_better"] > 0)}
+    counts = _as_studies(replay)
+    return {"replay stopped": f"{counts['stopped']}/{counts['replayed']}",
+            "stopped beat kept": counts["stopped_better"], "studies": counts["studies"],
+            "best stopped": counts["best_stopped"]}
+
+
+def _as_studies(replay: dict[str, Any]) -> dict[str, Any]:
+    """One run's replay in the pooled form: ``best_stopped`` as a count of ``studies``.
+
+    One run's best counts as lost when a stopped trial beats every kept one (``stopped_better``),
+    which reads records written before ties counted as kept the same way as later ones.
+    """
+    if "studies" in replay:
+        return replay
+    return {**replay, "studies": 1, "best_stopped": int(replay["stopped_better"] > 0)}
 
 
 def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
@@ -207,10 +217,9 @@ def pool_seeds(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
         for r in group:
             for key, value in r["counts"].items():
                 counts[key] = counts.get(key, 0) + value
-        replays = [r["replay"] for r in group if r.get("replay")]
-        replay = {key: sum(x[key] for x in replays) for key in ("replayed", "stopped", "stopped_better")}
-        replay["best_stopped"] = sum(int(x["stopped_better"] > 0) for x in replays)
-        replay["studies"] = len(replays)
+        replays = [_as_studies(r["replay"]) for r in group if r.get("replay")]
+        replay = {key: sum(x[key] for x in replays)
+                  for key in ("replayed", "stopped", "stopped_better", "best_stopped", "studies")}
         pooled.append({**group[0], "counts": counts, "seeds": sorted(r.get("seed", 0) for r in group),
                        "replay": replay if replays else None,
                        **{key: sum(r[key] for r in group) / len(group)
