@@ -157,5 +157,3 @@ def _check_unique_columns(names: list[str], path: Path) -> None:
             f"{path} has duplicate column names: {', '.join(duplicates)}",
             "rename the columns so that each name appears once",
         )
-
-

@@ -99,5 +99,3 @@ def _names(path: Path) -> list[str]:
             return archive.namelist()
     except (zipfile.BadZipFile, OSError, EOFError):
         return []
-
-

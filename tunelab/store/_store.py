@@ -589,7 +589,6 @@ def _study(row: Any) -> StudyRecord:
     return StudyRecord(**data)
 
 
-
 def _again(study: str | None) -> str:
     """How to go on after a store fault: the study is intact, so resume it (or repeat a command outside one)."""
     return f"tunelab resume {study}" if study else "run the command again"
