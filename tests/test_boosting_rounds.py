@@ -89,7 +89,7 @@ def test_the_first_fold_stops_growing_once_the_held_out_loss_stops_improving(dat
     pipeline, _, (train, test) = first_fold_model(dataset, OVERFITTING, METRICS["log_loss"])
     grown = pipeline[-1].n_iter_
     assert grown < 200
-    reference = build_pipeline(OVERFITTING, dataset.roles, {c.name: c.n_unique for c in dataset.columns},
+    reference = build_pipeline(OVERFITTING, dataset.roles, dataset.cardinality,
                                dataset.task, seed=0)
     prep = reference[:-1]
     X_train = prep.fit_transform(dataset.X.iloc[train], dataset.y[train])

@@ -16,7 +16,7 @@ def _svm_fit_quality(scale: float) -> tuple[float, np.ndarray]:
     bunch = skdata.load_diabetes(as_frame=True)
     frame = bunch.frame.assign(target=bunch.frame["target"] * scale)
     dataset = prepare_frame(frame, "target", "regression")
-    cardinality = {c.name: c.n_unique for c in dataset.columns}
+    cardinality = dataset.cardinality
     pipeline = build_pipeline({"family": "svm", "svm.C": 1.0}, dataset.roles, cardinality, dataset.task)
     pipeline.fit(dataset.X.iloc[:330], dataset.y[:330])
     predicted = np.asarray(pipeline.predict(dataset.X.iloc[330:]))

@@ -96,7 +96,7 @@ def test_a_rung_fits_the_first_fold_whole_on_its_sample_and_scores_all_its_held_
     # step 1 is the sample's model scored on the whole held-out fold (scikit-learn's roc_auc_score)
     _, test = objective.folds[0]
     sample = objective.first_fold_rows(None)[1][0]
-    pipeline = build_pipeline(config, mid_dataset.roles, {c.name: c.n_unique for c in mid_dataset.columns},
+    pipeline = build_pipeline(config, mid_dataset.roles, mid_dataset.cardinality,
                               mid_dataset.task, seed=0, n_threads=1)
     pipeline.fit(mid_dataset.X.iloc[sample], mid_dataset.y[sample])
     positive = pipeline.classes_[1]

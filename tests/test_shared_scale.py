@@ -121,7 +121,7 @@ def test_the_mlp_may_take_a_larger_share_of_the_budget_on_one_scale() -> None:
 
 def test_a_pooled_map_pipeline_fits_and_predicts() -> None:
     dataset = prepare_frame(_digits(), "y", "multiclass")
-    cardinality = {c.name: c.n_unique for c in dataset.columns}
+    cardinality = dataset.cardinality
     pipeline = build_pipeline({"family": "linear", "linear.num_transform": "pooled"}, dataset.roles, cardinality,
                               dataset.task)
     with warnings.catch_warnings():

@@ -486,7 +486,7 @@ def test_cost_moves_an_expensive_family_back_in_the_warm_starts() -> None:
 def test_warm_starts_and_sampled_configs_build_and_fit() -> None:
     dataset, meta = _data("small")
     space = build_space(data_facts(dataset, _with_costs(meta, CHEAP)), budget_seconds=100_000.0)
-    cardinality = {c.name: c.n_unique for c in dataset.columns}
+    cardinality = dataset.cardinality
     study = optuna.create_study(sampler=optuna.samplers.RandomSampler(seed=0))
     optuna.logging.set_verbosity(optuna.logging.WARNING)
     configs: list[dict[str, Any]] = [dict(w) for w in space.warm_starts]

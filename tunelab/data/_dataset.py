@@ -41,6 +41,11 @@ class Dataset:
         return {c.name: c.role for c in self.columns if c.role != "id"}
 
     @property
+    def cardinality(self) -> dict[str, int]:
+        """Column name → distinct values, what the preprocessor sizes its encodings by."""
+        return {c.name: c.n_unique for c in self.columns}
+
+    @property
     def n_rows(self) -> int:
         return int(self.X.shape[0])
 

@@ -196,7 +196,7 @@ class CrossValidationObjective:
         if len(self.row_shares) >= STEPS_PER_FOLD or list(self.row_shares) != sorted(set(self.row_shares)):
             raise ValueError(f"at most {STEPS_PER_FOLD - 1} increasing row shares are allowed")
         self.folds = make_folds(self.dataset.y, self.dataset.task, self.seed, self.n_folds)
-        self.cardinality = {c.name: c.n_unique for c in self.dataset.columns}
+        self.cardinality = self.dataset.cardinality
         train = self.folds[0][0]
         # One seeded, stratified order of the first fold's training rows; each rung takes a prefix
         # (nested), and so does a row-capped family's sample, the top of its ladder.

@@ -45,7 +45,7 @@ def ensemble_words(st: Store, record: StudyRecord) -> str:
 
 def fit_config(config: dict[str, Any], dataset: Dataset, seed: int) -> Any:
     """One trial's pipeline refitted on the rows its search scored it on (all, or its row cap)."""
-    pipeline = build_pipeline(config, dataset.roles, {c.name: c.n_unique for c in dataset.columns}, dataset.task,
+    pipeline = build_pipeline(config, dataset.roles, dataset.cardinality, dataset.task,
                               seed=seed, n_threads=1)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")

@@ -87,7 +87,7 @@ def probe_transforms(dataset: Dataset, metric: str | None, choices: Sequence[str
         folds = make_folds(y, dataset.task, seed, PROBE_FOLDS)
     except ValueError:  # a class too small to split: no probe, the rule decides
         return None
-    cardinality = {c.name: c.n_unique for c in dataset.columns}
+    cardinality = dataset.cardinality
     started = clock()
     with one_thread():  # a thousand rows under load: 10 s with many threads, 2.5 s with one (digits)
         scores = _scores(X, y, folds, choices, roles, cardinality, dataset.task, resolved, seed,
