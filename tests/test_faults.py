@@ -215,7 +215,7 @@ def test_a_worker_frozen_past_the_stale_limit_records_nothing_after_it_was_decla
     facts = read_store(store)
     assert facts.integrity == "ok"
     worker_launch = [lid for lid, _ in facts.launches[1:]]
-    assert [state for lid, state in facts.launches if lid in worker_launch] == ["lost"]
+    assert [state for lid, state in facts.launches if lid in worker_launch] == ["lost"], (err, facts)
     assert all(n == 1 for n in facts.retries.values()) and facts.retries  # its trial ran again, once
     assert facts.states.get("RUNNING", 0) == 0
     from tunelab.store import Store

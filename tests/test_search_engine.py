@@ -172,3 +172,26 @@ def test_a_trial_found_ended_by_another_workers_recovery_while_it_ran_ends_the_l
     assert result.summary.lost and result.summary.stop_reason.startswith("lost:")
     with Store.open(str(store_path)) as st:
         assert [launch.state for launch in st.launches(st.get_study("claim").id)] == ["lost"]
+
+
+def test_a_launch_declared_dead_between_claiming_a_trial_and_starting_it_ends_as_lost(store_path, monkeypatch):
+    # Frozen (SIGSTOP) just after optuna handed it a trial, a worker woke to find the trial already
+    # marked interrupted by another worker's recovery; stamping the trial raised, and its launch
+    # ended "crashed" instead of "lost" (1 fresh-clone run of the frozen-worker fault test).
+    real_ask = optuna.Study.ask
+
+    def ask_then_frozen_past_the_stale_limit(study, *args, **kwargs):
+        trial = real_ask(study, *args, **kwargs)
+        if trial.number == 1:  # what another process's recovery does while this one is frozen
+            with Store.open(str(store_path)) as st:
+                assert st.mark_dead_launches(st.get_study("frozen").id, now=1e12, stale_after=30.0)
+            study.tell(trial, state=optuna.trial.TrialState.FAIL)
+        return trial
+
+    monkeypatch.setattr(optuna.Study, "ask", ask_then_frozen_past_the_stale_limit)
+    clock = FakeClock()
+    result = run_objective_study("frozen", quadratic(clock), SPACE, Budget(trials=4), store=str(store_path),
+                                 direction="minimize", clock=clock, settings=settings())
+    assert result.summary.lost and result.summary.counts["complete"] == 1  # nothing after it was declared dead
+    with Store.open(str(store_path)) as st:
+        assert [launch.state for launch in st.launches(st.get_study("frozen").id)] == ["lost"]

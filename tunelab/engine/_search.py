@@ -230,7 +230,20 @@ class _Launch:
         return bool(reason)
 
     def run_one_trial(self) -> str:
-        """Ask for a config, evaluate it, and record the outcome whole; returns the trial's state."""
+        """Ask for a config, evaluate it, and record the outcome whole; returns the trial's state.
+
+        A trial found already ended means another process's recovery took it: this launch was
+        declared dead while it held the trial (frozen past the stale limit), at any point from the
+        claim to the record, so the launch is lost and records nothing more (seen after SIGSTOP,
+        ``benchmarks/fault_loop.py`` and the frozen-worker fault test).
+        """
+        try:
+            return self._run_one_trial()
+        except UpdateFinishedTrialError:
+            self._lost()
+            return LOST
+
+    def _run_one_trial(self) -> str:
         with hold_stops():  # a stop waits until the trial is claimed, stamped and its config stored
             self.trial = self.study.study.ask()
             _stamp(self.study, self.trial, self.owner)
@@ -239,21 +252,13 @@ class _Launch:
         t0 = self.clock.now()
         cpu_left = None if self.box.cpu is None else max(0.0, self.box.cpu - self.heartbeat.cpu_seconds())
         hook = _PruningHook(self.trial)
-        try:
-            outcome = self.runner.run(config, hook, Limits(self.box.deadline, cpu_left), self.clock)
-        except UpdateFinishedTrialError:  # a report found the trial ended by another worker's recovery:
-            self._lost()  # this launch was declared dead while it ran (seen after SIGSTOP, fault_loop.py)
-            return LOST
+        outcome = self.runner.run(config, hook, Limits(self.box.deadline, cpu_left), self.clock)
         with hold_stops():  # the outcome is recorded whole, then a stop acts
             if not self.heartbeat.beat():  # declared dead while the trial ran: its result is not ours to record
                 self._lost()
                 return LOST
-            try:
-                kind = _record(self.study, self.trial, outcome, self.clock.now() - t0, hook.reports,
-                               getattr(self.runner, "objective", None))
-            except UpdateFinishedTrialError:  # recovered by another worker between the beat and the write
-                self._lost()
-                return LOST
+            kind = _record(self.study, self.trial, outcome, self.clock.now() - t0, hook.reports,
+                           getattr(self.runner, "objective", None))
             if kind == "complete" and outcome.result is not None and outcome.result.predictions is not None:
                 keep = int(self.record.settings.get(KEEP_PREDICTIONS, DEFAULT_KEEP_PREDICTIONS))
                 if keep > 0:
