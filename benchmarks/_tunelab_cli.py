@@ -85,6 +85,20 @@ def _run(command: list[str], timeout: float, log: list[dict[str, object]], threa
     return seconds
 
 
+def chosen_trial(exe: str, study: str, store: Path) -> dict[str, object]:
+    """What tunelab chose, as ``status --json`` tells it: the trial export ships with ``--single``,
+    its cross-validated score, fold spread, family and configuration.  A diagnostic beside the score
+    (the random and TPE arms record theirs); a status that fails leaves it empty."""
+    try:
+        done = subprocess.run([exe, "status", study, "--store", str(store), "--json"],
+                              capture_output=True, text=True, timeout=120)
+        best = json.loads(done.stdout).get("best_trial") or {}
+    except (subprocess.SubprocessError, OSError, ValueError):
+        return {}
+    keep = ("number", "value", "fold_std", "family", "params", "origin")
+    return {key: best[key] for key in keep if key in best}
+
+
 def read_predictions(path: Path, task: str) -> Predictions:
     """Read a predictions file written by ``tunelab predict``."""
     frame = pd.read_csv(path)
@@ -119,6 +133,7 @@ def tunelab_method(executable: str | None = None) -> Callable[[Problem], Outcome
                  "--seed", str(problem.seed), "-q", "--jobs", "1", *metric],  # one core, as every method
                 grace, log, problem.threads,
             )
+            chosen = chosen_trial(exe, study, store)
             refit = _run(
                 [exe, "export", study, "--store", str(store), "--out", str(model), "--single"],
                 grace, log, problem.threads,
@@ -139,7 +154,7 @@ def tunelab_method(executable: str | None = None) -> Callable[[Problem], Outcome
             search_seconds=search,
             refit_seconds=refit,
             curve=curve,
-            details={"commands": log, "overshoot_seconds": float(
+            details={"commands": log, "chosen": chosen, "overshoot_seconds": float(
                 np.round(search - problem.budget_seconds, 3))},
         )
 

@@ -377,9 +377,23 @@ def compact(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
             row["details"] = {"members": details.get("members", []), "predict_seconds": details.get("predict_seconds"),
                               "predict_ms_per_1000": details.get("predict_ms_per_1000"),
                               "store_bytes": details.get("store_bytes")}
+        chosen = _chosen(details)
+        if chosen:
+            row["chosen"] = chosen
         row["error"] = (r.get("error") or "")[:200] or None
         out.append(row)
     return out
+
+
+def _chosen(details: dict[str, Any]) -> dict[str, Any]:
+    """What a search chose, its cross-validated score and family: for tunelab as ``status`` told it,
+    for the baseline searches their best config.  Where a method's test score came from."""
+    if details.get("chosen"):
+        picked = details["chosen"]
+        return {"cv": picked.get("value"), "fold_std": picked.get("fold_std"), "family": picked.get("family")}
+    if details.get("best_config"):
+        return {"cv": details.get("best_cv"), "family": details["best_config"].get("family")}
+    return {}
 
 
 def _timing_table(records: list[dict[str, Any]]) -> pd.DataFrame:

@@ -512,6 +512,19 @@ def test_tunelab_is_told_the_metric_as_a_user_would(monkeypatch: pytest.MonkeyPa
     assert runs[0][-2:] == ["--metric", "mae"] and "--metric" not in runs[1]
 
 
+def test_the_tunelab_arm_records_the_trial_it_chose_as_status_reports_it(tmp_path: Path) -> None:
+    from benchmarks._tunelab_cli import chosen_trial
+
+    fake = tmp_path / "fake-tunelab"
+    fake.write_text("#!/bin/sh\n"
+                    "echo '{\"best_trial\": {\"number\": 4, \"value\": 0.91, \"fold_std\": 0.02, "
+                    "\"family\": \"linear\", \"params\": {\"linear.C\": 2.0}, \"duration\": 1.5}}'\n")
+    fake.chmod(0o755)
+    assert chosen_trial(str(fake), "s", tmp_path / "store.db") == {
+        "number": 4, "value": 0.91, "fold_std": 0.02, "family": "linear", "params": {"linear.C": 2.0}}
+    assert chosen_trial(str(tmp_path / "missing"), "s", tmp_path / "store.db") == {}  # a diagnostic: never fatal
+
+
 def test_a_baseline_search_cross_validates_under_the_metric_it_is_given() -> None:
     import optuna
 
@@ -648,6 +661,20 @@ def test_a_compact_gzipped_summary_reprints_the_same_report_and_the_half_in_one_
     # default, 7.0; 1 = the best seen): concrete 1, 2.05/2.95, 1.5/2.95; cps1988 0.95/2.05, 1, 1.5/2.05.
     # cps1988 is 1.05 below hgb_default with a seed spread of 0.05; no ensemble arm ran.
     assert table[2] == "| rmse | 2 | 0, 1 | 1 of 2 | 1 of 2 | 0.732 / 0.847 / 0.620 | 1 of 2 | — |"
+
+
+def test_the_compact_summary_keeps_what_each_search_chose_and_its_cross_validated_score() -> None:
+    from benchmarks.suite import compact
+
+    records = [{**_record("wage", "tunelab", 3.0), "details": {"commands": ["x"], "chosen": {
+                    "number": 7, "value": 0.91, "fold_std": 0.02, "family": "svm", "params": {"svm.C": 3.0}}}},
+               {**_record("wage", "random_search", 4.0), "details": {
+                    "best_cv": 0.88, "best_config": {"family": "hist_gb", "learning_rate": 0.1}}},
+               _record("wage", "hgb_default", 5.0)]
+    rows = compact(records)
+    assert rows[0]["chosen"] == {"cv": 0.91, "fold_std": 0.02, "family": "svm"}
+    assert rows[1]["chosen"] == {"cv": 0.88, "family": "hist_gb"}
+    assert "chosen" not in rows[2]  # a library default chooses nothing
 
 
 def test_a_method_never_run_on_a_table_shows_as_not_run_and_is_left_out_of_its_comparisons() -> None:
