@@ -4,7 +4,9 @@ Every trial of a study is scored on the same folds, so a fold that is hard for o
 is hard for all: fold scores are modelled as ``trial effect + fold effect + noise``.  The fold
 effects let a trial that finished only some folds be compared with trials that finished all of
 them, and the noise is what two trials' paired difference on the same folds cannot explain.
-Used by the pruner (``tunelab.engine``) and by the decisions (``tunelab.insight``).
+The pruner (``tunelab.engine``) uses both; the decisions (``tunelab.insight``) use the fold
+effects, and measure the noise between two *families* on pairs of families instead: the noise here
+is an average over all pairs of complete trials, and near copies of one family make it tiny.
 """
 
 from __future__ import annotations
@@ -30,10 +32,6 @@ class FoldFit:
     effects: tuple[float, ...]
     noise: float
     trials: int
-
-    def paired_se(self, folds: int) -> float:
-        """Standard error of the difference of two trials' means over the same ``folds`` folds."""
-        return self.noise * math.sqrt(2.0 / max(1, folds))
 
 
 def fit_folds(rows: Iterable[Sequence[float]]) -> FoldFit | None:

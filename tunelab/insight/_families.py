@@ -5,10 +5,18 @@ longer gets goes to a family that can still win.
 
 The comparison is paired.  Every trial is scored on the same folds, so the leader (the best
 complete trial) and a family's best trial are compared fold by fold on the folds both finished —
-a pruned trial at the fidelity it reached.  The mean paired difference over ``k`` folds has the
-standard error ``noise * sqrt(2 / k)``, where ``noise`` is the residual of the additive fold model
-fitted to the study's complete trials (``tunelab.stats``); its 80 % interval is the mean
-± 1.28 standard errors.  A family is dropped when the whole interval says it trails.
+a pruned trial at the fidelity it reached.  The chance part of that difference is how much two
+*families* disagree from fold to fold, and it is measured on exactly such pairs: the per-fold
+differences between the leader and every trial of another family that shares two folds or more
+with it, pooled (their spread around each pair's own mean).  Its 80 % interval is the mean ± the
+t quantile of those degrees of freedom times the spread over ``sqrt(k)`` for ``k`` shared folds.
+A family is dropped when the whole interval says it trails; until two folds of some such pair
+measure that spread, no family is dropped.
+
+Not the residual of the additive fold model of all complete trials (``tunelab.stats``), which the
+pruner uses: when most complete trials are near copies of one family (82 of 82 logistic
+regressions differing in C on a 1,000-row table), that residual is a few ten-thousandths and it
+dropped every other family, the table's true best among them, on one fold's difference.
 
 A family's best is the best of its trials by the fold-adjusted score (``_evidence``): picking the
 best of many favours the family, so a drop errs on the side of keeping it.
@@ -21,9 +29,10 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
 
+from scipy import stats as scipy_stats
+
 from tunelab.insight._evidence import comparable, fold_fit
 from tunelab.insight._pace import Pace
-from tunelab.stats import Z80
 from tunelab.store import TrialRecord, best_of
 from tunelab.values import format_score as num
 
@@ -90,6 +99,12 @@ def family_verdicts(trials: Sequence[TrialRecord], families: Sequence[str], *, d
     leader = best_of(trials, direction)
     sign = 1.0 if direction == "maximize" else -1.0
     reach = _fold_reach(trials)
+    rivals = [t for t in scored if leader is not None and t.family != leader.family and t.family not in dropped]
+    bests: dict[str, TrialRecord] = {}
+    for trial in rivals:
+        if trial.family not in bests or sign * trial.score > sign * bests[trial.family].score:
+            bests[trial.family] = trial
+    spread = _family_spread(leader, rivals)
     out = []
     for family in families:
         own = [t for t in scored if t.family == family]
@@ -100,13 +115,15 @@ def family_verdicts(trials: Sequence[TrialRecord], families: Sequence[str], *, d
             out.append(FamilyVerdict(family, "leads", "leads", f"holds the best trial ({leader.number})",
                                      best_trial=leader.number, folds=len(leader.fold_scores), trials=len(own)))
             continue
-        if not own or leader is None or fit is None:
-            out.append(_undecided(family, own, leader, fit is None, trials, reach, pace))
+        if family not in bests or leader is None or spread is None:
+            out.append(_undecided(family, own, leader, leader is not None and spread is None and bool(own),
+                                  trials, reach, pace))
             continue
-        best = max(own, key=lambda t: sign * t.score)
+        best = bests[family]
         k = min(len(best.fold_scores), len(leader.fold_scores))
         gap = sign * sum(leader.fold_scores[f] - best.fold_scores[f] for f in range(k)) / k
-        half = Z80 * fit.paired_se(k)
+        sd, dof = spread
+        half = float(scipy_stats.t.ppf(0.9, dof)) * sd / math.sqrt(k)
         low, high = gap - half, gap + half
         where = f"trial {best.number} against trial {leader.number} on {k} fold{'s' if k > 1 else ''}"
         if low > 0:
@@ -128,14 +145,35 @@ def _fold_reach(trials: Sequence[TrialRecord]) -> float:
     return max(1, sum(1 for t in ended if t.fold_scores or t.state == "complete")) / len(ended)
 
 
-def _undecided(family: str, own: list[TrialRecord], leader: TrialRecord | None, no_noise: bool,
+def _family_spread(leader: TrialRecord | None, rivals: Sequence[TrialRecord]) -> tuple[float, int] | None:
+    """How much the leader and a trial of another family differ from fold to fold by chance: the
+    pooled spread of their per-fold differences around each pair's own mean, over every such trial
+    that shares two folds or more with the leader, with its degrees of freedom; ``None`` until one does."""
+    if leader is None:
+        return None
+    squares, dof = 0.0, 0
+    for best in rivals:
+        k = min(len(best.fold_scores), len(leader.fold_scores))
+        if k < 2:
+            continue
+        diffs = [leader.fold_scores[f] - best.fold_scores[f] for f in range(k)]
+        mean = sum(diffs) / k
+        squares += sum((d - mean) ** 2 for d in diffs)
+        dof += k - 1
+    if dof == 0:
+        return None
+    return math.sqrt(squares / dof), dof
+
+
+def _undecided(family: str, own: list[TrialRecord], leader: TrialRecord | None, no_spread: bool,
                trials: Sequence[TrialRecord], reach: float, pace: Pace | None) -> FamilyVerdict:
     if leader is None:
         why = "no trial is complete yet, so there is no leader to compare with"
         needed = None
-    elif no_noise:
-        why = "fewer than two complete trials, so the fold noise is not known yet"
-        needed = None
+    elif no_spread:
+        why = ("how much two families differ from fold to fold by chance is not measured yet: no other family's "
+               "best has finished two folds beside the leader")
+        needed = max(1, math.ceil(2.0 / reach))
     else:
         tried = sum(1 for t in trials if t.family == family and t.state in ("complete", "pruned"))
         why = (f"none of its {tried} trials finished a fold" if tried else "not tried yet")
