@@ -171,8 +171,8 @@ def _undecided(family: str, own: list[TrialRecord], leader: TrialRecord | None, 
         why = "no trial is complete yet, so there is no leader to compare with"
         needed = None
     elif no_spread:
-        why = ("how much two families differ from fold to fold by chance is not measured yet: no other family's "
-               "best has finished two folds beside the leader")
+        why = ("how much two families differ from fold to fold by chance is not measured yet: no trial of a "
+               "family other than the leader's has finished two folds")
         needed = max(1, math.ceil(2.0 / reach))
     else:
         tried = sum(1 for t in trials if t.family == family and t.state in ("complete", "pruned"))
