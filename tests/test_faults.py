@@ -129,8 +129,8 @@ def test_a_dropped_database_connection_is_waited_for_and_the_running_trial_reque
     small_frame(600).to_csv(data, index=False)
     link = CuttableLink(("127.0.0.1", 5432))
     with pg_database() as url:
-        run = _pg_run(link, url, data, "45s")
-        assert wait_until(lambda: len(_facts(url).complete) >= 3, 60), "the search never got going"
+        run = _pg_run(link, url, data, "60s")
+        assert wait_until(lambda: _finished(url) >= 3, 45), "the search never got going"
         link.cut()
         time.sleep(6)  # the network is down for a while ...
         link.restore()  # ... and comes back inside the 30 s the search waits
@@ -152,7 +152,7 @@ def test_a_connection_that_never_comes_back_stops_the_run_in_one_line_and_resume
     link = CuttableLink(("127.0.0.1", 5432))
     with pg_database() as url:
         run = _pg_run(link, url, data, "60s")
-        assert wait_until(lambda: len(_facts(url).complete) >= 2, 60), "the search never got going"
+        assert wait_until(lambda: _finished(url) >= 2, 45), "the search never got going"
         before = pg_facts(url)
         link.cut()
         out, err = run.communicate(timeout=120)  # it waits 30 s for the database, then gives up
@@ -165,6 +165,13 @@ def test_a_connection_that_never_comes_back_stops_the_run_in_one_line_and_resume
     assert before.complete <= after.complete
     assert all(n == 1 for n in after.retries.values())
     assert after.states.get("RUNNING", 0) == 0
+
+
+def _finished(url: str) -> int:
+    """Trials that reached a verdict: most trials are pruned, and on a loaded machine (a benchmark
+    beside the test run) three complete ones could take longer than the wait (seen once)."""
+    states = _facts(url).states
+    return states.get("COMPLETE", 0) + states.get("PRUNED", 0)
 
 
 def _facts(url: str):
