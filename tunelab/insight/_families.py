@@ -152,11 +152,11 @@ def _family_spread(leader: TrialRecord | None, rivals: Sequence[TrialRecord]) ->
     if leader is None:
         return None
     squares, dof = 0.0, 0
-    for best in rivals:
-        k = min(len(best.fold_scores), len(leader.fold_scores))
+    for rival in rivals:
+        k = min(len(rival.fold_scores), len(leader.fold_scores))
         if k < 2:
             continue
-        diffs = [leader.fold_scores[f] - best.fold_scores[f] for f in range(k)]
+        diffs = [leader.fold_scores[f] - rival.fold_scores[f] for f in range(k)]
         mean = sum(diffs) / k
         squares += sum((d - mean) ** 2 for d in diffs)
         dof += k - 1
