@@ -100,10 +100,6 @@ def family_verdicts(trials: Sequence[TrialRecord], families: Sequence[str], *, d
     sign = 1.0 if direction == "maximize" else -1.0
     reach = _fold_reach(trials)
     rivals = [t for t in scored if leader is not None and t.family != leader.family and t.family not in dropped]
-    bests: dict[str, TrialRecord] = {}
-    for trial in rivals:
-        if trial.family not in bests or sign * trial.score > sign * bests[trial.family].score:
-            bests[trial.family] = trial
     spread = _family_spread(leader, rivals)
     out = []
     for family in families:
@@ -115,11 +111,10 @@ def family_verdicts(trials: Sequence[TrialRecord], families: Sequence[str], *, d
             out.append(FamilyVerdict(family, "leads", "leads", f"holds the best trial ({leader.number})",
                                      best_trial=leader.number, folds=len(leader.fold_scores), trials=len(own)))
             continue
-        if family not in bests or leader is None or spread is None:
-            out.append(_undecided(family, own, leader, leader is not None and spread is None and bool(own),
-                                  trials, reach, pace))
+        if not own or leader is None or spread is None:
+            out.append(_undecided(family, own, leader, spread is None and bool(own), trials, reach, pace))
             continue
-        best = bests[family]
+        best = max(own, key=lambda t: sign * t.score)
         k = min(len(best.fold_scores), len(leader.fold_scores))
         gap = sign * sum(leader.fold_scores[f] - best.fold_scores[f] for f in range(k)) / k
         sd, dof = spread
