@@ -13,6 +13,14 @@ t quantile of those degrees of freedom times the spread over ``sqrt(k)`` for ``k
 A family is dropped when the whole interval says it trails; until two folds of some such pair
 measure that spread, no family is dropped.
 
+Two folds to drop a family.  When its best trails on one fold only, a trial of it that finished
+two folds or more must trail beyond chance too; until one has, the family is *undecided*.  One fold
+is what a trial stopped at the first rung has, and nothing else speaks for its family: both wrong
+drops of seeds 6-8 in ``benchmarks/decisions.py`` were such one-fold drops of svm, the family of a
+10-minute study's best (``docs/experiments/decisions.md``).  The pruner lets each family's best at
+the first fold go on to a second once (``tunelab.engine``), so a weak family still gets its two
+folds at the cost of one more fold.
+
 Not the residual of the additive fold model of all complete trials (``tunelab.stats``), which the
 pruner uses: when most complete trials are near copies of one family (82 of 82 logistic
 regressions differing in C on a 1,000-row table), that residual is a few ten-thousandths and it
@@ -49,7 +57,8 @@ class FamilyVerdict:
         The family.
     action
         ``leads`` (holds the best complete trial), ``keep`` (within chance of the leader),
-        ``drop`` (trails by more than chance) or ``undecided`` (no trial of it finished a fold).
+        ``drop`` (trails by more than chance on two folds or more) or ``undecided`` (no trial of it
+        finished a fold, or its best trails on its first fold only).
     verdict
         The decision in words: ``drop svm``, ``keep``, ``leads``, ``undecided``.
     reason
@@ -115,29 +124,76 @@ def family_verdicts(trials: Sequence[TrialRecord], families: Sequence[str], *, d
             out.append(_undecided(family, own, leader, spread is None and bool(own), trials, reach, pace))
             continue
         best = max(own, key=lambda t: sign * t.score)
-        k = min(len(best.fold_scores), len(leader.fold_scores))
-        gap = sign * sum(leader.fold_scores[f] - best.fold_scores[f] for f in range(k)) / k
-        sd, dof = spread
-        half = float(scipy_stats.t.ppf(0.9, dof)) * sd / math.sqrt(k)
-        low, high = gap - half, gap + half
-        where = f"trial {best.number} against trial {leader.number} on {k} fold{'s' if k > 1 else ''}"
-        if low > 0:
-            out.append(FamilyVerdict(family, "drop", f"drop {family}",
-                                     f"its best trails the leader by {num(gap)} (80 % interval {num(low)} to "
-                                     f"{num(high)}; {where})", best.number, gap, low, high, k, len(own)))
+        first = _paired(best, leader, sign, spread)
+        deep = [t for t in own if min(len(t.fold_scores), len(leader.fold_scores)) >= 2]
+        if first.low <= 0:
+            out.append(_keep(family, first, len(own)))
+        elif first.folds >= 2:
+            out.append(_drop(family, first, len(own), first.words))
+        elif not deep:
+            out.append(_one_fold(family, own, first, trials, pace))
         else:
-            out.append(FamilyVerdict(family, "keep", "keep",
-                                     f"within chance of the leader: behind by {num(gap)} (80 % interval {num(low)} to "
-                                     f"{num(high)}; {where})", best.number, gap, low, high, k, len(own)))
+            second = _paired(max(deep, key=lambda t: sign * t.score), leader, sign, spread)
+            if second.low > 0:
+                out.append(_drop(family, second, len(own),
+                                 f"on two folds or more {second.words}; its best on one fold {first.words}"))
+            else:
+                out.append(_keep(family, second, len(own)))
     return tuple(out)
 
 
-def _fold_reach(trials: Sequence[TrialRecord]) -> float:
-    """Share of the study's finished trials that finished at least one fold."""
+@dataclass(frozen=True)
+class _Paired:
+    """One trial against the leader on the folds both finished: the gap (positive = behind) and its interval."""
+
+    trial: int
+    folds: int
+    gap: float
+    low: float
+    high: float
+    leader: int
+
+    @property
+    def words(self) -> str:
+        return (f"trails the leader by {num(self.gap)} (80 % interval {num(self.low)} to {num(self.high)}; trial "
+                f"{self.trial} against trial {self.leader} on {self.folds} fold{'s' if self.folds > 1 else ''})")
+
+
+def _paired(trial: TrialRecord, leader: TrialRecord, sign: float, spread: tuple[float, int]) -> _Paired:
+    k = min(len(trial.fold_scores), len(leader.fold_scores))
+    gap = sign * sum(leader.fold_scores[f] - trial.fold_scores[f] for f in range(k)) / k
+    sd, dof = spread
+    half = float(scipy_stats.t.ppf(0.9, dof)) * sd / math.sqrt(k)
+    return _Paired(trial.number, k, gap, gap - half, gap + half, leader.number)
+
+
+def _keep(family: str, p: _Paired, trials: int) -> FamilyVerdict:
+    words = p.words.replace("trails the leader by", "behind by", 1)
+    return FamilyVerdict(family, "keep", "keep", f"within chance of the leader: {words}", p.trial, p.gap, p.low,
+                         p.high, p.folds, trials)
+
+
+def _drop(family: str, p: _Paired, trials: int, words: str) -> FamilyVerdict:
+    return FamilyVerdict(family, "drop", f"drop {family}", f"its best {words}", p.trial, p.gap, p.low, p.high,
+                         p.folds, trials)
+
+
+def _fold_reach(trials: Sequence[TrialRecord], folds: int = 1) -> float:
+    """Share of the study's finished trials that finished at least ``folds`` folds."""
     ended = [t for t in trials if t.state in ("complete", "pruned")]
     if not ended:
         return 1.0
-    return max(1, sum(1 for t in ended if t.fold_scores or t.state == "complete")) / len(ended)
+    return max(1, sum(1 for t in ended if len(t.fold_scores) >= folds or t.state == "complete")) / len(ended)
+
+
+def _one_fold(family: str, own: list[TrialRecord], p: _Paired, trials: Sequence[TrialRecord],
+              pace: Pace | None) -> FamilyVerdict:
+    """A family that trails on one fold only, with no trial of it on two: not enough to drop it."""
+    needed = max(1, math.ceil(1.0 / _fold_reach(trials, 2)))
+    why = (f"its best {p.words}, but no trial of {family} has finished two folds; one that does")
+    why += f" ({pace.words(needed, family)})" if pace is not None else ""
+    return FamilyVerdict(family, "undecided", "undecided", why + " would decide", p.trial, p.gap, p.low, p.high,
+                         p.folds, len(own), needed)
 
 
 def _family_spread(leader: TrialRecord | None, rivals: Sequence[TrialRecord]) -> tuple[float, int] | None:
