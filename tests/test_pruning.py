@@ -331,11 +331,23 @@ def test_from_one_fold_on_a_trial_must_also_be_among_the_best_third_of_its_own_f
 
 
 def test_a_trial_of_a_weak_family_is_still_stopped_by_the_rung_all_families_share():
-    study = rung_study(min_peers=2)
+    study = rung_study(min_peers=2, second_fold=False)
     for value in (0.90, 0.91, 0.92):
         ask_and_report(study, {3: value})
     # The best linear model so far, but far outside the best third of all values at step 3.
     assert ask_and_report(study, {3: 0.60}, family="linear")
+
+
+def test_a_weak_familys_best_at_the_first_fold_goes_on_to_a_second_once():
+    # The family decisions drop a family only on two folds; without this a weak family's trials
+    # all stop at the first fold and it can never be dropped.
+    study = rung_study(min_peers=2)
+    for value in (0.90, 0.91, 0.92):
+        ask_and_report(study, {3: value, 6: value})
+    assert not ask_and_report(study, {3: 0.60}, finish=False, family="linear")  # its first: one more fold
+    assert ask_and_report(study, {3: 0.55}, family="linear")  # not its family's best at the first fold
+    assert ask_and_report(study, {3: 0.60, 6: 0.61}, family="linear")  # judged as usual at the second
+    assert ask_and_report(study, {3: 0.65}, family="linear")  # its best now, but linear has had its second fold
 
 
 def test_hyperband_brackets_start_pruning_at_later_rungs():

@@ -27,6 +27,11 @@ step 3 one fold, step 6 two folds.  Three things follow for a fair comparison:
   logistic regression and trees cross: Perlich, Provost & Simonoff 2003, JMLR 4; from memory).  On
   a 100,000-row table at 40 s, judging across families there stopped every boosting trial behind
   linear models that it beat by 0.02 ROC AUC on all rows; each row rung is a rung;
+* each family's best at the first fold goes on to a second once, whatever the rung all families
+  share says (``second_fold``): until a trial of it has finished two folds, the family decisions
+  (``tunelab.insight``) cannot drop it — a trial stopped at its first fold was stopped for that
+  fold's score, and one-fold drops dropped the family a longer study found best
+  (``docs/experiments/decisions.md``, seeds 6-8).  It costs about one fold per family;
 * optionally (``margin_se``), a trial must trail the kept share by more than chance: a number
   of standard errors of the difference between two trials' running means (``fold_noise``,
   measured on the finished trials).  It keeps more of the trials that end best on the folds, but
@@ -125,6 +130,24 @@ def _peer_values(study: optuna.Study, trial: FrozenTrial, step: int, states: Ite
     return values
 
 
+def _family_first_past_fold(study: optuna.Study, trial: FrozenTrial, value: float) -> bool:
+    """Whether ``value`` at the first fold is the best of the trial's family there, and no trial of
+    the family has gone past the first fold yet (finished, or reported beyond it)."""
+    family = trial.params.get("family")
+    if family is None:  # a space of one family: there is no family decision to feed
+        return False
+    better = (lambda a, b: a > b) if _maximise(study) else (lambda a, b: a < b)
+    for other in study.get_trials(deepcopy=False):
+        if other.number == trial.number or other.params.get("family") != family:
+            continue
+        if other.state == TrialState.COMPLETE or any(s > STEPS_PER_FOLD for s in other.intermediate_values):
+            return False
+        seen = other.intermediate_values.get(STEPS_PER_FOLD)
+        if seen is not None and not math.isnan(seen) and better(seen, value):
+            return False
+    return True
+
+
 class RungPruner(BasePruner):
     """Asynchronous successive halving at fixed steps, comparing equal steps only.
 
@@ -162,11 +185,14 @@ class RungPruner(BasePruner):
         Steps 1 … ``row_rungs`` are row rungs (whole fits on row samples): judged for every
         family, within its own family only.  With row rungs the default ``rungs`` are
         ``rung_steps(row_rungs)``.
+    second_fold
+        At the first fold, let a trial go on that is the best its family reported there while no
+        trial of the family has gone past the first fold (see the module docstring).
     """
 
     def __init__(self, rungs: tuple[int, ...] | None = None, keep: float = KEEP, min_peers: int = MIN_PEERS,
                  brackets: int = 1, within_family: bool = True, margin_se: float = MARGIN_SE,
-                 row_rungs: int = 0) -> None:
+                 row_rungs: int = 0, second_fold: bool = True) -> None:
         rungs = rung_steps(row_rungs) if rungs is None else rungs
         if (not rungs or list(rungs) != sorted(set(rungs)) or rungs[0] < 1 or not 0.0 < keep < 1.0
                 or min_peers < 1 or brackets < 1 or margin_se < 0):
@@ -179,6 +205,7 @@ class RungPruner(BasePruner):
         self.within_family = within_family
         self.margin_se = margin_se
         self.row_rungs = row_rungs
+        self.second_fold = second_fold
 
     def rung_of(self, step: int) -> int | None:
         """The rung index of a step, or None between rungs."""
@@ -199,6 +226,8 @@ class RungPruner(BasePruner):
             return False
         same_bracket = None if self.brackets == 1 else (lambda t: t.number % self.brackets == bracket)
         states = (TrialState.COMPLETE, TrialState.PRUNED, TrialState.RUNNING, TrialState.FAIL)
+        if self.second_fold and step == STEPS_PER_FOLD and _family_first_past_fold(study, trial, value):
+            return False
         margin = self._margin(study, step)
         values = [value, *_peer_values(study, trial, step, states, same_bracket)]
         if self._below_share(study, value, values, margin):
