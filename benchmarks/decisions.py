@@ -53,11 +53,13 @@ HALF = "2m30s"  # each half of a 5-minute study
 REFERENCE = "10m"
 CUTS = (60.0, 90.0, 120.0, 150.0, 180.0, 210.0, 240.0)
 STRETCH = 60.0
+EXECUTABLE: list[str] = []  # --tunelab: the build under test, when it is not the venv's
 
 
 def tunelab(*args: str, check: bool = True) -> subprocess.CompletedProcess[str]:
     env = {**os.environ, "OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1", "MKL_NUM_THREADS": "1"}
-    done = subprocess.run([default_executable(), *args], capture_output=True, text=True, env=env, timeout=3600)
+    command = [*(EXECUTABLE or [default_executable()]), *args]
+    done = subprocess.run(command, capture_output=True, text=True, env=env, timeout=3600)
     if check and done.returncode != 0:
         raise RuntimeError(f"tunelab {' '.join(args)} exited {done.returncode}: {done.stderr.strip()[-500:]}")
     return done
@@ -193,8 +195,13 @@ def main() -> int:
     parser.add_argument("--half", default=HALF, help="each half of the study (a smoke test shortens it)")
     parser.add_argument("--reference", default=REFERENCE, help="the reference study's budget")
     parser.add_argument("--out", type=Path, default=Path("benchmarks/records/decisions"))
+    parser.add_argument("--tunelab", default=None,
+                        help="path of the tunelab executable under test (default: the venv's); run this "
+                             "script from the same checkout so the forecast check imports the same build")
     parser.add_argument("--combine", type=Path, nargs="+", default=None, help="only reprint earlier runs' JSON")
     args = parser.parse_args()
+    if args.tunelab:
+        EXECUTABLE[:] = [args.tunelab]
     if args.combine:
         rows, refs = [], {}
         for path in args.combine:
