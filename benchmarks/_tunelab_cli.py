@@ -161,10 +161,11 @@ def tunelab_method(executable: str | None = None) -> Callable[[Problem], Outcome
     return run
 
 
-def tunelab_ensemble_method(executable: str | None = None) -> Callable[[Problem], Outcome]:
+def tunelab_ensemble_method(executable: str | None = None, always: bool = False) -> Callable[[Problem], Outcome]:
     """The same study as the ``tunelab`` arm, shipped by ``export``'s default: the ensemble selection
     picks where it beats the best trial by more than its fold noise, else that trial (``--single``
-    is what the ``tunelab`` arm ships).
+    is what the ``tunelab`` arm ships).  With ``always``, ``export --ensemble``: the ensemble
+    whatever the cross-fitted comparison says, so the ensemble itself is measured, not the default.
 
     It searches nothing itself: it reads the store the ``tunelab`` arm left beside its own folder
     (that arm runs first), so the two arms differ only in what ``export`` ships.  The export time,
@@ -183,8 +184,9 @@ def tunelab_ensemble_method(executable: str | None = None) -> Callable[[Problem]
         grace = 2 * problem.budget_seconds + 300
         log: list[dict[str, object]] = []
         try:
-            refit = _run([exe, "export", study, "--store", str(store), "--out", str(model)],
-                         grace, log, problem.threads)  # export's default: the ensemble where it is worth it
+            refit = _run([exe, "export", study, "--store", str(store), "--out", str(model),
+                          *(["--ensemble"] if always else [])],
+                         grace, log, problem.threads)  # by default: the ensemble where it is worth it
             with zipfile.ZipFile(model) as archive:
                 shipped = json.loads(archive.read("meta.json")).get("ensemble", {})
             predict = _run([exe, "predict", str(model), str(problem.test_features_csv), "--out", str(preds)],

@@ -84,11 +84,14 @@ from benchmarks._tunelab_cli import tunelab_ensemble_method, tunelab_method
 
 DEFAULT_METHODS = ["hgb_default", "rf_default", "linear_default"]
 # Methods that search under a metric, so run once per metric; the defaults fit once.
-SEARCHES = ("random_search", "tpe", "tunelab", "tunelab_ensemble")
+SEARCHES = ("random_search", "tpe", "tunelab", "tunelab_ensemble", "tunelab_ensemble_always")
 # What tunelab is compared with head to head.
 RIVALS = ("random_search", "tpe")
 # The two arms exported from one study: export's default (an ensemble where it is worth it) and one trial.
 ENSEMBLE, SINGLE = "tunelab_ensemble", "tunelab"
+# A third arm from the same study: always the ensemble (export --ensemble), the ensemble itself measured.
+ALWAYS = "tunelab_ensemble_always"
+ENSEMBLE_ARMS = (ENSEMBLE, ALWAYS)
 RESULTS_DIR = Path(__file__).resolve().parent / "results"
 _BUDGET = re.compile(r"^(\d+(?:\.\d+)?)(s|m|h)$")
 _UNIT_SECONDS = {"s": 1, "m": 60, "h": 3600}
@@ -157,6 +160,8 @@ def all_methods(tunelab_executable: str | None = None) -> dict[str, Method]:
         "tunelab": tunelab_method(tunelab_executable),
         # The tunelab arm's study shipped by export's default (an ensemble where it is worth it).
         "tunelab_ensemble": tunelab_ensemble_method(tunelab_executable),
+        # The same study, always shipped as an ensemble (export --ensemble).
+        ALWAYS: tunelab_ensemble_method(tunelab_executable, always=True),
     }
 
 
@@ -210,17 +215,19 @@ def metric_report(records: list[dict[str, Any]]) -> dict[str, Any]:
                          for rival in RIVALS if compared and rival in oriented.columns},
         "below_default": below,
         "ensemble": _ensemble_against_single(per_seed, oriented, not_run),
+        "ensemble_always": _ensemble_against_single(per_seed, oriented, not_run, ALWAYS),
     }
 
 
-def _ensemble_against_single(per_seed: pd.DataFrame, oriented: pd.DataFrame,
-                             not_run: pd.DataFrame) -> dict[str, Any] | None:
-    """Export's default against one trial from the same study, per table: the pooled score and the seed spread."""
-    if ENSEMBLE not in oriented.columns or SINGLE not in oriented.columns:
+def _ensemble_against_single(per_seed: pd.DataFrame, oriented: pd.DataFrame, not_run: pd.DataFrame,
+                             arm: str = ENSEMBLE) -> dict[str, Any] | None:
+    """An export arm (by default export's default) against one trial from the same study, per table:
+    the pooled score and the seed spread."""
+    if arm not in oriented.columns or SINGLE not in oriented.columns:
         return None
-    both = [d for d in oriented.index if not (not_run.loc[d, ENSEMBLE] or not_run.loc[d, SINGLE])]
-    wins, ties, losses = head_to_head(oriented.loc[both], ENSEMBLE, SINGLE)
-    gaps = gaps_to_best_default(per_seed.loc[both], ENSEMBLE, [SINGLE]) if both else pd.DataFrame(columns=["below"])
+    both = [d for d in oriented.index if not (not_run.loc[d, arm] or not_run.loc[d, SINGLE])]
+    wins, ties, losses = head_to_head(oriented.loc[both], arm, SINGLE)
+    gaps = gaps_to_best_default(per_seed.loc[both], arm, [SINGLE]) if both else pd.DataFrame(columns=["below"])
     return {"wins": wins, "ties": ties, "losses": losses, "worse": [str(d) for d in gaps[gaps["below"]].index]}
 
 
@@ -258,10 +265,12 @@ def _render_metric(metric: str, records: list[dict[str, Any]]) -> tuple[list[str
     for rival, (wins, ties, losses) in report["head_to_head"].items():
         lines.append(f"tunelab against {rival}: better on {wins} of {_tables_text(wins + ties + losses)} "
                      f"(tied {ties}, worse or failed {losses})")
-    ensemble = report["ensemble"]
-    if ensemble is not None:
+    for arm, key in ((ENSEMBLE, "ensemble"), (ALWAYS, "ensemble_always")):
+        ensemble = report[key]
+        if ensemble is None:
+            continue
         worse = ensemble["worse"]
-        lines.append(f"{ENSEMBLE} against {SINGLE} (one trial, same study): better on {ensemble['wins']} of "
+        lines.append(f"{arm} against {SINGLE} (one trial, same study): better on {ensemble['wins']} of "
                      f"{_tables_text(ensemble['wins'] + ensemble['ties'] + ensemble['losses'])} (tied "
                      f"{ensemble['ties']}, worse or failed {ensemble['losses']}); worse beyond the seed spread on "
                      f"{len(worse)}" + (f": {', '.join(worse)}" if worse else ""))
@@ -288,7 +297,7 @@ def _render_half(half: str, records: list[dict[str, Any]]) -> list[str]:
         return lines + ["not run", ""]
     totals = {rival: [0, 0] for rival in RIVALS}
     below = []
-    ensemble = [0, 0, []]  # wins, pairs, pairs worse beyond the seed spread
+    arms: dict[str, list[Any]] = {arm: [0, 0, []] for arm in ENSEMBLE_ARMS}  # wins, pairs, pairs worse beyond spread
     for metric in METRIC_ORDER:
         chosen = [r for r in records if r["metric"] == metric]
         if not chosen:
@@ -300,28 +309,30 @@ def _render_half(half: str, records: list[dict[str, Any]]) -> list[str]:
             totals[rival][1] += wins + ties + losses
         flagged = report["below_default"]
         below += [f"{d} ({metric})" for d in flagged[flagged["below"]].index]
-        if report["ensemble"] is not None:
-            found = report["ensemble"]
-            ensemble[0] += found["wins"]
-            ensemble[1] += found["wins"] + found["ties"] + found["losses"]
-            ensemble[2] += [f"{d} ({metric})" for d in found["worse"]]
+        for arm, key in ((ENSEMBLE, "ensemble"), (ALWAYS, "ensemble_always")):
+            found = report[key]
+            if found is not None:
+                arms[arm][0] += found["wins"]
+                arms[arm][1] += found["wins"] + found["ties"] + found["losses"]
+                arms[arm][2] += [f"{d} ({metric})" for d in found["worse"]]
     if any(total for _, total in totals.values()):
         pairs = ", ".join(f"{rival} on {wins} of {total}" for rival, (wins, total) in totals.items() if total)
         lines.append(f"{HALF_TITLES[half].split(' (')[0]}, all metrics (table x metric pairs): "
                      f"tunelab better than {pairs}; below the best default beyond the seed spread on "
                      f"{len(below)}" + (f": {', '.join(below)}" if below else ""))
-    if ensemble[1]:
-        worse = ensemble[2]
-        lines.append(f"{HALF_TITLES[half].split(' (')[0]}, all metrics: {ENSEMBLE} better than {SINGLE} on "
-                     f"{ensemble[0]} of {ensemble[1]} pairs; worse beyond the seed spread on {len(worse)}"
+    for arm, (wins, pairs, worse) in arms.items():
+        if not pairs:
+            continue
+        lines.append(f"{HALF_TITLES[half].split(' (')[0]}, all metrics: {arm} better than {SINGLE} on "
+                     f"{wins} of {pairs} pairs; worse beyond the seed spread on {len(worse)}"
                      + (f": {', '.join(worse)}" if worse else ""))
-        lines += _ensemble_costs([r for r in records if r["method"] in (ENSEMBLE, SINGLE)])
+        lines += _ensemble_costs([r for r in records if r["method"] in (arm, SINGLE)], arm)
     return lines + [""]
 
 
-def _ensemble_costs(records: list[dict[str, Any]]) -> list[str]:
-    """What shipping export's default costs beside one trial: export and prediction time, kept predictions."""
-    mine = [r for r in records if r["method"] == ENSEMBLE and r.get("score") is not None]
+def _ensemble_costs(records: list[dict[str, Any]], arm: str = ENSEMBLE) -> list[str]:
+    """What shipping an export arm costs beside one trial: export and prediction time, kept predictions."""
+    mine = [r for r in records if r["method"] == arm and r.get("score") is not None]
     single = [r for r in records if r["method"] == SINGLE and r.get("score") is not None]
     if not mine:
         return []
@@ -356,9 +367,12 @@ def headline(records: list[dict[str, Any]], half: str) -> str:
         normalised = " / ".join(f"{summary[m]:.3f}" if m in summary.index else "—"
                                 for m in ("tunelab", "random_search", "tpe"))
         below = report["below_default"]
-        ensemble = report["ensemble"]
-        versus = "—" if ensemble is None else \
-            f"{ensemble['wins']} of {ensemble['wins'] + ensemble['ties'] + ensemble['losses']}"
+        counts = {key: None if report[key] is None else
+                  f"{report[key]['wins']} of {report[key]['wins'] + report[key]['ties'] + report[key]['losses']}"
+                  for key in ("ensemble", "ensemble_always")}
+        versus = counts["ensemble"] or "—"
+        if counts["ensemble_always"]:
+            versus += f" (always an ensemble: {counts['ensemble_always']})"
         rows.append(f"| {metric} | {tables} | {_seed_text(seeds)} | {duel.get('random_search', '—')} | "
                     f"{duel.get('tpe', '—')} | "
                     f"{normalised} | {int(below['below'].sum())} of {len(below)} | {versus} |")
@@ -373,7 +387,7 @@ def compact(records: list[dict[str, Any]]) -> list[dict[str, Any]]:
     for r in records:
         row = {k: r.get(k) for k in keep}
         details = r.get("details") or {}
-        if r["method"] == ENSEMBLE:
+        if r["method"] in ENSEMBLE_ARMS:
             row["details"] = {"members": details.get("members", []), "predict_seconds": details.get("predict_seconds"),
                               "predict_ms_per_1000": details.get("predict_ms_per_1000"),
                               "store_bytes": details.get("store_bytes")}

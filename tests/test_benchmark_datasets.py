@@ -636,6 +636,26 @@ def test_report_judges_the_ensemble_arm_against_the_single_trial_from_the_same_s
     assert "export shipped an ensemble on 2 of 6 runs" in report and "export s mean 6.0 against 3.0" in report
 
 
+def test_report_judges_the_always_an_ensemble_arm_against_the_single_trial_beside_the_default() -> None:
+    from benchmarks.suite import headline, render
+
+    records = []
+    for seed in (0, 1):
+        for dataset in ("concrete", "cps1988"):
+            single = 4.0 + seed / 10
+            records += [_record(dataset, "hgb_default", 5.0, seed), _record(dataset, "tunelab", single, seed),
+                        _record(dataset, "tunelab_ensemble", single, seed),  # the default shipped one trial
+                        _record(dataset, "tunelab_ensemble_always", single - 0.2, seed)]  # lower rmse: better
+    for r in records:
+        r.setdefault("refit_seconds", 3.0)
+        r.setdefault("details", {"members": [], "predict_seconds": 1.0})
+    report = render(records)
+    assert "tunelab_ensemble against tunelab (one trial, same study): better on 0 of 2 tables (tied 2" in report
+    assert "tunelab_ensemble_always against tunelab (one trial, same study): better on 2 of 2 tables" in report
+    assert "all metrics: tunelab_ensemble_always better than tunelab on 2 of 2 pairs" in report
+    assert "| 0 of 2 (always an ensemble: 2 of 2) |" in headline(records, "held")
+
+
 def test_a_compact_gzipped_summary_reprints_the_same_report_and_the_half_in_one_markdown_table(
         tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     from benchmarks import suite
