@@ -38,7 +38,9 @@ Report, for each half and each metric: per table the pooled test score of every 
 rank, wins over the best default and mean normalised score (0 = worst default, 1 = best seen);
 head to head, on how many tables tunelab's pooled score beats random search's and plain TPE's;
 and the tables where tunelab is below the best library default by more than the seed spread
-(the standard error of the per-seed difference). Raw results go to ``benchmarks/results/`` as
+(the standard error of the per-seed difference); and the same study shipped two more ways,
+``export``'s default (``tunelab_ensemble``) and always an ensemble (``tunelab_ensemble_always``),
+each against the single trial. Raw results go to ``benchmarks/results/`` as
 JSON, rewritten after every table so that a stopped run keeps what it finished. See
 ``benchmarks/README.md`` for the shared protocol.
 """
