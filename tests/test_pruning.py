@@ -278,7 +278,9 @@ def test_the_median_rule_compares_with_finished_trials_at_the_same_step():
     assert not ask_and_report(study, {1: 0.35, 3: 0.35, 6: 0.35}, family=forest)
     assert ask_and_report(study, {1: 0.9}, family=forest)
     assert not ask_and_report(study, {1: 0.9}, family="linear")  # no finished linear model at step 1
-    assert ask_and_report(study, {3: 0.9}, family="linear")
+    # The first boosting trial at the first fold is its family's best there: it goes on, once.
+    assert not ask_and_report(study, {3: 0.9, 4: 0.9}, finish=False, family="hist_gb")
+    assert ask_and_report(study, {3: 0.85}, family="hist_gb")  # better, but boosting went past the fold
 
 
 def test_a_rung_told_to_keep_half_keeps_the_better_half_and_waits_for_enough_peers():

@@ -262,13 +262,16 @@ class MedianPruner(BasePruner):
 
     Nothing is pruned before ``startup`` trials have finished, nor at a step fewer than
     ``min_peers`` finished trials reported (below one fold: finished trials of the same family).
-    A NaN value is always pruned.
+    A NaN value is always pruned.  As with :class:`RungPruner`, each family's best at the first
+    fold goes on to a second once (``second_fold``).
     """
 
-    def __init__(self, startup: int = MEDIAN_STARTUP, min_peers: int = 3, row_rungs: int = 0) -> None:
+    def __init__(self, startup: int = MEDIAN_STARTUP, min_peers: int = 3, row_rungs: int = 0,
+                 second_fold: bool = True) -> None:
         self.startup = startup
         self.min_peers = min_peers
         self.row_rungs = row_rungs
+        self.second_fold = second_fold
 
     def prune(self, study: optuna.Study, trial: FrozenTrial) -> bool:
         step = trial.last_step
@@ -280,6 +283,8 @@ class MedianPruner(BasePruner):
         if not _judged_at(trial, step, self.row_rungs):
             return False
         if len(study.get_trials(deepcopy=False, states=(TrialState.COMPLETE,))) < self.startup:
+            return False
+        if self.second_fold and step == STEPS_PER_FOLD and _family_first_past_fold(study, trial, value):
             return False
         peers = _peer_values(study, trial, step, (TrialState.COMPLETE,))
         if len(peers) < self.min_peers:
