@@ -101,3 +101,18 @@ def test_a_run_keeps_optunas_own_warnings_off_the_terminal(cli, store_path, smal
 
     assert cli("run", str(small_csv), "--target", "y", "--trials", "2", "--store", str(store_path), "-q").code == 0
     assert optuna.logging.get_verbosity() == optuna.logging.ERROR
+
+
+def test_library_warnings_stay_off_the_terminal_once_optuna_is_imported(tmp_path, small_csv):
+    # optuna configures its logger at INFO when first imported, after the command line set errors
+    # only; a database outage then printed its "falling back to a slower alternative" warning
+    # above tunelab's one-line error (seen in tests/test_faults.py).
+    script = ("import sys\nfrom tunelab.cli import main\n"
+              f"try:\n    main(sys.argv[1:] + ['run', {str(small_csv)!r}, '--target', 'y', '--trials', '2', "
+              f"'--jobs', '1', '--store', {str(tmp_path / 's.db')!r}, '-q'])\nexcept SystemExit:\n    pass\n"
+              "import optuna\nprint(optuna.logging.get_verbosity())\n")
+    quiet = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=300)
+    assert quiet.stdout.split()[-1] == "40", quiet.stderr  # logging.ERROR
+    (tmp_path / "s.db").unlink()
+    loud = subprocess.run([sys.executable, "-c", script, "--debug"], capture_output=True, text=True, timeout=300)
+    assert loud.stdout.split()[-1] == "30", loud.stderr  # logging.WARNING

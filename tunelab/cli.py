@@ -563,7 +563,12 @@ def main(argv: list[str] | None = None) -> None:
     flags = _Flags(debug="--debug" in (argv if argv is not None else sys.argv[1:]), started=time.time())
     import logging
 
-    logging.getLogger("optuna").setLevel(logging.WARNING if flags.debug else logging.ERROR)
+    # Libraries' log records (optuna's "falling back to a slower alternative" while the database is
+    # gone) are not for the user: errors only, warnings too with --debug.  optuna resets its logger
+    # when it is first imported, so the engine applies the "tunelab" logger's level to it then.
+    level = logging.WARNING if flags.debug else logging.ERROR
+    logging.getLogger("tunelab").setLevel(level)
+    logging.getLogger("optuna").setLevel(level)
     try:
         code = app(args=argv, obj=flags, prog_name="tunelab", standalone_mode=False)
     except TunelabError as exc:

@@ -7,6 +7,7 @@ study — ask, tell, queue a config, record a fact on a trial by its number — 
 
 from __future__ import annotations
 
+import logging
 import random
 import warnings
 from collections.abc import Mapping, Sequence
@@ -89,8 +90,11 @@ def open_search_study(store: Store, record: StudyRecord, *, launch_number: int, 
     pruner = make_pruner(record.settings.get("pruning", "auto"), max_steps=n_folds,
                          expected_trials=record.settings.get("expected_trials"),
                          row_rungs=len(record.settings.get(keys.ROW_SHARES) or ()))
-    if optuna.logging.get_verbosity() < optuna.logging.WARNING:  # tunelab reports study creation itself;
-        optuna.logging.set_verbosity(optuna.logging.WARNING)  # the command line keeps its own, stricter level
+    # tunelab reports study creation itself: optuna's info lines are off, and the command line's
+    # stricter level (the "tunelab" logger's, set before optuna's import reset optuna's) holds.
+    wanted = max(optuna.logging.WARNING, logging.getLogger("tunelab").getEffectiveLevel())
+    if optuna.logging.get_verbosity() < wanted:
+        optuna.logging.set_verbosity(wanted)
     storage = store.optuna_storage()
     fresh = create
     if not create:
