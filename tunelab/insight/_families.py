@@ -129,14 +129,14 @@ def family_verdicts(trials: Sequence[TrialRecord], families: Sequence[str], *, d
         if first.low <= 0:
             out.append(_keep(family, first, len(own)))
         elif first.folds >= 2:
-            out.append(_drop(family, first, len(own), first.words))
+            out.append(_drop(family, first, len(own), first.words()))
         elif not deep:
-            out.append(_one_fold(family, own, first, trials, pace))
+            out.append(_one_fold(family, len(own), first, trials, pace))
         else:
             second = _paired(max(deep, key=lambda t: sign * t.score), leader, sign, spread)
             if second.low > 0:
                 out.append(_drop(family, second, len(own),
-                                 f"on two folds or more {second.words}; its best on one fold {first.words}"))
+                                 f"on two folds or more {second.words()}; its best on one fold {first.words()}"))
             else:
                 out.append(_keep(family, second, len(own)))
     return tuple(out)
@@ -153,9 +153,8 @@ class _Paired:
     high: float
     leader: int
 
-    @property
-    def words(self) -> str:
-        return (f"trails the leader by {num(self.gap)} (80 % interval {num(self.low)} to {num(self.high)}; trial "
+    def words(self, behind: str = "trails the leader by") -> str:
+        return (f"{behind} {num(self.gap)} (80 % interval {num(self.low)} to {num(self.high)}; trial "
                 f"{self.trial} against trial {self.leader} on {self.folds} fold{'s' if self.folds > 1 else ''})")
 
 
@@ -168,9 +167,8 @@ def _paired(trial: TrialRecord, leader: TrialRecord, sign: float, spread: tuple[
 
 
 def _keep(family: str, p: _Paired, trials: int) -> FamilyVerdict:
-    words = p.words.replace("trails the leader by", "behind by", 1)
-    return FamilyVerdict(family, "keep", "keep", f"within chance of the leader: {words}", p.trial, p.gap, p.low,
-                         p.high, p.folds, trials)
+    return FamilyVerdict(family, "keep", "keep", f"within chance of the leader: {p.words('behind by')}", p.trial,
+                         p.gap, p.low, p.high, p.folds, trials)
 
 
 def _drop(family: str, p: _Paired, trials: int, words: str) -> FamilyVerdict:
@@ -186,14 +184,14 @@ def _fold_reach(trials: Sequence[TrialRecord], folds: int = 1) -> float:
     return max(1, sum(1 for t in ended if len(t.fold_scores) >= folds or t.state == "complete")) / len(ended)
 
 
-def _one_fold(family: str, own: list[TrialRecord], p: _Paired, trials: Sequence[TrialRecord],
+def _one_fold(family: str, tried: int, p: _Paired, trials: Sequence[TrialRecord],
               pace: Pace | None) -> FamilyVerdict:
     """A family that trails on one fold only, with no trial of it on two: not enough to drop it."""
     needed = max(1, math.ceil(1.0 / _fold_reach(trials, 2)))
-    why = (f"its best {p.words}, but no trial of {family} has finished two folds; one that does")
+    why = (f"its best {p.words()}, but no trial of {family} has finished two folds; one that does")
     why += f" ({pace.words(needed, family)})" if pace is not None else ""
     return FamilyVerdict(family, "undecided", "undecided", why + " would decide", p.trial, p.gap, p.low, p.high,
-                         p.folds, len(own), needed)
+                         p.folds, tried, needed)
 
 
 def _family_spread(leader: TrialRecord | None, rivals: Sequence[TrialRecord]) -> tuple[float, int] | None:
