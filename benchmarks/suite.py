@@ -94,6 +94,7 @@ ENSEMBLE, SINGLE = "tunelab_ensemble", "tunelab"
 # A third arm from the same study: always the ensemble (export --ensemble), the ensemble itself measured.
 ALWAYS = "tunelab_ensemble_always"
 ENSEMBLE_ARMS = (ENSEMBLE, ALWAYS)
+ENSEMBLE_KEYS = {ENSEMBLE: "ensemble", ALWAYS: "ensemble_always"}  # where metric_report puts each arm's duel
 RESULTS_DIR = Path(__file__).resolve().parent / "results"
 _BUDGET = re.compile(r"^(\d+(?:\.\d+)?)(s|m|h)$")
 _UNIT_SECONDS = {"s": 1, "m": 60, "h": 3600}
@@ -216,8 +217,7 @@ def metric_report(records: list[dict[str, Any]]) -> dict[str, Any]:
         "head_to_head": {rival: head_to_head(oriented[~(not_run["tunelab"] | not_run[rival])], "tunelab", rival)
                          for rival in RIVALS if compared and rival in oriented.columns},
         "below_default": below,
-        "ensemble": _ensemble_against_single(per_seed, oriented, not_run),
-        "ensemble_always": _ensemble_against_single(per_seed, oriented, not_run, ALWAYS),
+        **{key: _ensemble_against_single(per_seed, oriented, not_run, arm) for arm, key in ENSEMBLE_KEYS.items()},
     }
 
 
@@ -267,7 +267,7 @@ def _render_metric(metric: str, records: list[dict[str, Any]]) -> tuple[list[str
     for rival, (wins, ties, losses) in report["head_to_head"].items():
         lines.append(f"tunelab against {rival}: better on {wins} of {_tables_text(wins + ties + losses)} "
                      f"(tied {ties}, worse or failed {losses})")
-    for arm, key in ((ENSEMBLE, "ensemble"), (ALWAYS, "ensemble_always")):
+    for arm, key in ENSEMBLE_KEYS.items():
         ensemble = report[key]
         if ensemble is None:
             continue
@@ -311,7 +311,7 @@ def _render_half(half: str, records: list[dict[str, Any]]) -> list[str]:
             totals[rival][1] += wins + ties + losses
         flagged = report["below_default"]
         below += [f"{d} ({metric})" for d in flagged[flagged["below"]].index]
-        for arm, key in ((ENSEMBLE, "ensemble"), (ALWAYS, "ensemble_always")):
+        for arm, key in ENSEMBLE_KEYS.items():
             found = report[key]
             if found is not None:
                 arms[arm][0] += found["wins"]
