@@ -371,7 +371,7 @@ def headline(records: list[dict[str, Any]], half: str) -> str:
         below = report["below_default"]
         counts = {key: None if report[key] is None else
                   f"{report[key]['wins']} of {report[key]['wins'] + report[key]['ties'] + report[key]['losses']}"
-                  for key in ("ensemble", "ensemble_always")}
+                  for key in ENSEMBLE_KEYS.values()}
         versus = counts["ensemble"] or "—"
         if counts["ensemble_always"]:
             versus += f" (always an ensemble: {counts['ensemble_always']})"
